@@ -1,0 +1,554 @@
+//! Error metrics between the finite-pulse response and the ideal impulse response.
+//!
+//! Definitions (shared across the project):
+//! - raw error at t = 0⁺: reading y(end)/area minus h(0⁺);
+//! - aligned error: y(end)/area minus h(end − centroid);
+//! - window errors: y(t)/area − h(t − centroid) for end ≤ t ≤ run, max and RMS;
+//! - relative figures divide by |h(0⁺)|, or by peak |h| when h(0⁺) = 0, and are signed.
+
+use crate::network::{Mode, Network};
+use crate::pulse::Trapezoid;
+use crate::response::{FreeResponse, Modal};
+use crate::scenario::Metric;
+
+/// Fraction of the peak below which |h| counts as settled (0.1 %).
+pub const SETTLE_FRACTION: f64 = 1e-3;
+
+/// What the ideal impulse response looks like over time.
+#[derive(Debug, Clone)]
+pub struct IdealShape {
+    /// h(0⁺).
+    pub h0: f64,
+    /// Peak |h(t)| for t > 0 over the examined span.
+    pub peak: f64,
+    /// Time of that peak.
+    pub t_peak: f64,
+    /// Time after which |h| stays below 0.1 % of its peak; `None` when h does not decay.
+    pub settle: Option<f64>,
+}
+
+/// Times to examine h on: geometric near the origin plus uniform over the span.
+fn shape_grid(net: &Network, span: f64) -> Vec<f64> {
+    let fast = net.tau_fast();
+    let max_im = net.modes.iter().map(|m| m.pole.im.abs()).fold(0.0, f64::max);
+    let dt_osc = if max_im > 0.0 {
+        2.0 * std::f64::consts::PI / max_im / 24.0
+    } else {
+        f64::INFINITY
+    };
+    let n_uniform = ((span / dt_osc).ceil() as usize).clamp(4000, 400_000);
+    let mut t: Vec<f64> = (0..=n_uniform)
+        .map(|k| span * k as f64 / n_uniform as f64)
+        .collect();
+    let start = (fast * 1e-4).min(span / 10.0);
+    let n_geo = 3000;
+    let ratio = (span / start).powf(1.0 / n_geo as f64);
+    t.extend((0..=n_geo).map(|k| start * ratio.powi(k as i32)));
+    t.sort_by(f64::total_cmp);
+    t.dedup();
+    t
+}
+
+/// Golden-section refinement of a maximum of f on [a, b].
+fn refine_max(f: &dyn Fn(f64) -> f64, mut a: f64, mut b: f64) -> (f64, f64) {
+    let g = (5f64.sqrt() - 1.0) / 2.0;
+    let mut c = b - g * (b - a);
+    let mut d = a + g * (b - a);
+    let (mut fc, mut fd) = (f(c), f(d));
+    for _ in 0..80 {
+        if fc > fd {
+            b = d;
+            d = c;
+            fd = fc;
+            c = b - g * (b - a);
+            fc = f(c);
+        } else {
+            a = c;
+            c = d;
+            fc = fd;
+            d = a + g * (b - a);
+            fd = f(d);
+        }
+        if (b - a) <= 1e-13 * b.abs() {
+            break;
+        }
+    }
+    let t = (a + b) / 2.0;
+    (t, f(t))
+}
+
+impl IdealShape {
+    /// Examine h(t): peak and settling time. Spans until the modes' envelope is below
+    /// 0.1 % of the peak (stable networks), or 20 slowest time scales otherwise.
+    pub fn of(net: &Network, h: &FreeResponse) -> IdealShape {
+        let h0 = net.h0_plus();
+        let base = net
+            .tau_slow()
+            .unwrap_or_else(|| 1.0 / min_nonzero_freq(net).max(f64::MIN_POSITIVE));
+        let mut span = 10.0 * base;
+        let grid = shape_grid(net, span);
+        let (mut peak, mut t_peak) = grid_peak(h, &grid);
+        if !net.stable() {
+            return IdealShape {
+                h0,
+                peak,
+                t_peak,
+                settle: None,
+            };
+        }
+        // Extend until the envelope bound is below the settling threshold.
+        let mut guard = 0;
+        while h.envelope(span) > SETTLE_FRACTION * peak && guard < 40 {
+            span *= 2.0;
+            guard += 1;
+        }
+        let grid = shape_grid(net, span);
+        let (p2, t2) = grid_peak(h, &grid);
+        if p2 > peak {
+            peak = p2;
+            t_peak = t2;
+        }
+        // Refine the peak between the grid neighbours.
+        if let Ok(i) = grid.binary_search_by(|t| t.total_cmp(&t_peak)) {
+            let a = grid[i.saturating_sub(1)];
+            let b = grid[(i + 1).min(grid.len() - 1)];
+            let (t, v) = refine_max(&|t| h.at(t).abs(), a, b);
+            if v > peak {
+                peak = v;
+                t_peak = t;
+            }
+        }
+        let thr = SETTLE_FRACTION * peak;
+        let last_above = grid.iter().rposition(|&t| h.at(t).abs() >= thr);
+        let settle = last_above.map(|i| {
+            if i + 1 >= grid.len() {
+                return grid[i];
+            }
+            // Bisect the crossing between grid[i] (above) and grid[i+1] (below).
+            let (mut a, mut b) = (grid[i], grid[i + 1]);
+            for _ in 0..60 {
+                let mid = (a + b) / 2.0;
+                if h.at(mid).abs() >= thr {
+                    a = mid;
+                } else {
+                    b = mid;
+                }
+            }
+            b
+        });
+        IdealShape {
+            h0,
+            peak,
+            t_peak,
+            settle,
+        }
+    }
+}
+
+fn min_nonzero_freq(net: &Network) -> f64 {
+    net.modes
+        .iter()
+        .map(Mode::natural_frequency)
+        .filter(|&w| w > 0.0)
+        .fold(f64::INFINITY, f64::min)
+}
+
+fn grid_peak(h: &FreeResponse, grid: &[f64]) -> (f64, f64) {
+    grid.iter()
+        .map(|&t| (h.at(t).abs(), t))
+        .fold((0.0, 0.0), |best, cur| if cur.0 > best.0 { cur } else { best })
+}
+
+/// What the relative figures are divided by.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NormalisedBy {
+    /// |h(0⁺)|.
+    H0Plus,
+    /// Peak |h| (used when h(0⁺) = 0).
+    Peak,
+}
+
+impl NormalisedBy {
+    /// Name used in reports and JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            NormalisedBy::H0Plus => "h0_plus",
+            NormalisedBy::Peak => "peak",
+        }
+    }
+}
+
+/// One reading against its ideal value.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Reading {
+    /// y(end)/area.
+    pub reading: f64,
+    /// The ideal value it stands for.
+    pub ideal: f64,
+    /// reading − ideal.
+    pub abs: f64,
+    /// (reading − ideal)/normaliser.
+    pub rel: f64,
+}
+
+/// Errors over the window after the pulse.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WindowError {
+    /// max |y/area − h(t − c)| / normaliser.
+    pub max_rel: f64,
+    /// Time of that maximum.
+    pub t_max: f64,
+    /// RMS of the same over [end, run] / normaliser.
+    pub rms_rel: f64,
+}
+
+/// First-order analytic estimate: for a unit-area pulse y ≈ h(t − c) + ½σ²h″(t − c).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FirstOrder {
+    /// Raw error at 0⁺ ≈ h′(0⁺)(end − c) + ½σ²h″(0⁺), relative.
+    pub t0_rel: f64,
+    /// Aligned error ≈ ½σ²h″(end − c), relative.
+    pub t0_aligned_rel: f64,
+    /// The pulse's standard deviation σ about its centroid, s.
+    pub sigma: f64,
+}
+
+/// The full error estimate for one pulse.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ErrorEstimate {
+    /// Raw error at t = 0⁺.
+    pub t0: Reading,
+    /// Centroid-aligned error.
+    pub t0_aligned: Reading,
+    /// Window errors.
+    pub window: WindowError,
+    /// Which normaliser.
+    pub normalised_by: NormalisedBy,
+    /// Its value.
+    pub normaliser: f64,
+    /// Analytic estimate beside the exact figures.
+    pub first_order: FirstOrder,
+    /// For time-constant-only networks: the estimate per mode (each e^(−t/τ)).
+    pub per_mode: Vec<(f64, ErrorEstimate)>,
+}
+
+impl ErrorEstimate {
+    /// The value of a metric (magnitude).
+    pub fn metric(&self, m: Metric) -> f64 {
+        match m {
+            Metric::T0 => self.t0.rel.abs(),
+            Metric::T0Aligned => self.t0_aligned.rel.abs(),
+            Metric::Window => self.window.max_rel,
+        }
+    }
+}
+
+/// The network's exact machinery, prepared once and reused for many pulses.
+#[derive(Debug, Clone)]
+pub struct Estimator {
+    modal: Modal,
+    h: FreeResponse,
+    h0: f64,
+    normalised_by: NormalisedBy,
+    normaliser: f64,
+    /// For networks with unknown residues: one estimator per mode.
+    per_mode: Vec<(f64, Estimator)>,
+}
+
+impl Estimator {
+    /// Prepare for a network whose ideal shape is already known.
+    pub fn new(net: &Network, shape: &IdealShape) -> Estimator {
+        let modal = Modal::new(net);
+        let h = modal.impulse();
+        let per_mode = if net.residues_known {
+            Vec::new()
+        } else {
+            net.modes
+                .iter()
+                .map(|m| {
+                    let single = Network {
+                        modes: vec![m.clone()],
+                        residues_known: true,
+                        ..net.clone()
+                    };
+                    let h1 = Modal::new(&single).impulse();
+                    let shape1 = IdealShape::of(&single, &h1);
+                    (m.time_constant(), Estimator::new(&single, &shape1))
+                })
+                .collect()
+        };
+        let h0 = shape.h0;
+        let (normalised_by, normaliser) = if h0.abs() > 1e-9 * shape.peak {
+            (NormalisedBy::H0Plus, h0.abs())
+        } else {
+            (NormalisedBy::Peak, shape.peak)
+        };
+        Estimator {
+            modal,
+            h,
+            h0,
+            normalised_by,
+            normaliser,
+            per_mode,
+        }
+    }
+
+    /// The ideal impulse response.
+    pub fn ideal(&self) -> &FreeResponse {
+        &self.h
+    }
+
+    /// The modal realization.
+    pub fn modal(&self) -> &Modal {
+        &self.modal
+    }
+
+    /// Which normaliser relative figures use.
+    pub fn normalised_by(&self) -> NormalisedBy {
+        self.normalised_by
+    }
+
+    /// Its value.
+    pub fn normaliser(&self) -> f64 {
+        self.normaliser
+    }
+
+    /// Just the t = 0⁺ readings (cheap: used inside width searches).
+    pub fn readings(&self, pulse: &Trapezoid) -> (Reading, Reading) {
+        let end = pulse.end();
+        let reading = self.modal.drive(&pulse.breakpoints()).at(end) / pulse.area();
+        let raw_ideal = self.h0;
+        let aligned_ideal = self.h.at(end - pulse.centroid());
+        let mk = |ideal: f64| Reading {
+            reading,
+            ideal,
+            abs: reading - ideal,
+            rel: (reading - ideal) / self.normaliser,
+        };
+        (mk(raw_ideal), mk(aligned_ideal))
+    }
+
+    /// One metric's magnitude for a pulse (worst mode for networks with unknown residues).
+    pub fn metric(&self, pulse: &Trapezoid, metric: Metric, run: f64) -> f64 {
+        if !self.per_mode.is_empty() {
+            return self
+                .per_mode
+                .iter()
+                .map(|(_, e)| e.metric(pulse, metric, run))
+                .fold(0.0, f64::max);
+        }
+        match metric {
+            Metric::T0 => self.readings(pulse).0.rel.abs(),
+            Metric::T0Aligned => self.readings(pulse).1.rel.abs(),
+            Metric::Window => self.window(pulse, run).max_rel,
+        }
+    }
+
+    /// Window errors over [end, run].
+    pub fn window(&self, pulse: &Trapezoid, run: f64) -> WindowError {
+        let end = pulse.end();
+        if run <= end {
+            return WindowError {
+                max_rel: 0.0,
+                t_max: end,
+                rms_rel: 0.0,
+            };
+        }
+        let c = pulse.centroid();
+        let area = pulse.area();
+        let y = self.modal.drive(&pulse.breakpoints()).after_end();
+        let err = |t: f64| (y.at(t) / area - self.h.at(t - c)) / self.normaliser;
+        // Uniform grid for the RMS (time average), plus geometric points near the end where
+        // the fast modes change quickly.
+        let span = run - end;
+        let n = window_points(&self.modal, span);
+        let dt = span / (n - 1) as f64;
+        let yu = y.uniform(end, dt, n);
+        let hu = self.h.uniform(end - c, dt, n);
+        let eu: Vec<f64> = yu
+            .iter()
+            .zip(&hu)
+            .map(|(a, b)| (a / area - b) / self.normaliser)
+            .collect();
+        let sq: f64 = eu.windows(2).map(|w| (w[0] * w[0] + w[1] * w[1]) / 2.0).sum();
+        let rms_rel = (sq / (n - 1) as f64).sqrt();
+        let mut best = (0.0, end);
+        for (k, e) in eu.iter().enumerate() {
+            if e.abs() > best.0 {
+                best = (e.abs(), end + k as f64 * dt);
+            }
+        }
+        let fast = 1.0 / self.modal_fastest();
+        let start = (fast * 1e-4).min(span / 10.0);
+        let ratio = (span / start).powf(1.0 / 600.0);
+        for k in 0..=600 {
+            let t = end + start * ratio.powi(k);
+            let e = err(t).abs();
+            if e > best.0 {
+                best = (e, t);
+            }
+        }
+        let e_end = err(end).abs();
+        if e_end >= best.0 {
+            best = (e_end, end);
+        }
+        // Refine around the best sample.
+        let half = (best.1 - end).max(dt) * 0.05 + dt;
+        let a = (best.1 - half).max(end);
+        let b = (best.1 + half).min(run);
+        let (t_ref, v_ref) = refine_max(&|t| err(t).abs(), a, b);
+        if v_ref > best.0 {
+            best = (v_ref, t_ref);
+        }
+        WindowError {
+            max_rel: best.0,
+            t_max: best.1,
+            rms_rel,
+        }
+    }
+
+    fn modal_fastest(&self) -> f64 {
+        self.h.frequencies().fold(0.0, f64::max).max(f64::MIN_POSITIVE)
+    }
+
+    /// The full estimate for a pulse, over a run.
+    pub fn estimate(&self, pulse: &Trapezoid, run: f64) -> ErrorEstimate {
+        if !self.per_mode.is_empty() {
+            let per: Vec<(f64, ErrorEstimate)> = self
+                .per_mode
+                .iter()
+                .map(|(tau, e)| (*tau, e.estimate(pulse, run)))
+                .collect();
+            return worst_of(per);
+        }
+        let (t0, t0_aligned) = self.readings(pulse);
+        let window = self.window(pulse, run);
+        let c = pulse.centroid();
+        let var = pulse.variance();
+        let d1 = self.h.derivative(1);
+        let d2 = self.h.derivative(2);
+        let first_order = FirstOrder {
+            t0_rel: (d1.at(0.0) * (pulse.end() - c) + 0.5 * var * d2.at(0.0)) / self.normaliser,
+            t0_aligned_rel: 0.5 * var * d2.at(pulse.end() - c) / self.normaliser,
+            sigma: var.sqrt(),
+        };
+        ErrorEstimate {
+            t0,
+            t0_aligned,
+            window,
+            normalised_by: self.normalised_by,
+            normaliser: self.normaliser,
+            first_order,
+            per_mode: Vec::new(),
+        }
+    }
+}
+
+/// Number of uniform window samples: enough for the oscillations and the fastest decay.
+fn window_points(modal: &Modal, span: f64) -> usize {
+    let h = modal.impulse();
+    let fastest = h.frequencies().fold(0.0, f64::max);
+    let per_scale = 8.0;
+    let want = span * fastest * per_scale;
+    (want.ceil() as usize).clamp(2000, 200_000)
+}
+
+/// For networks with unknown residues: report the worst mode per metric.
+fn worst_of(per: Vec<(f64, ErrorEstimate)>) -> ErrorEstimate {
+    let pick = |key: &dyn Fn(&ErrorEstimate) -> f64| {
+        per.iter()
+            .max_by(|a, b| key(&a.1).total_cmp(&key(&b.1)))
+            .map(|p| p.1.clone())
+            .expect("a network has at least one mode")
+    };
+    let t0 = pick(&|e| e.t0.rel.abs());
+    let al = pick(&|e| e.t0_aligned.rel.abs());
+    let win = pick(&|e| e.window.max_rel);
+    let rms = pick(&|e| e.window.rms_rel);
+    ErrorEstimate {
+        t0: t0.t0,
+        t0_aligned: al.t0_aligned,
+        window: WindowError {
+            rms_rel: rms.window.rms_rel,
+            ..win.window
+        },
+        normalised_by: NormalisedBy::H0Plus,
+        normaliser: 1.0,
+        first_order: FirstOrder {
+            t0_rel: t0.first_order.t0_rel,
+            t0_aligned_rel: al.first_order.t0_aligned_rel,
+            sigma: t0.first_order.sigma,
+        },
+        per_mode: per,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::network::NetworkSpec;
+
+    fn est(spec: NetworkSpec) -> (Network, Estimator, IdealShape) {
+        let net = Network::from_spec(&spec).unwrap();
+        let h = Modal::new(&net).impulse();
+        let shape = IdealShape::of(&net, &h);
+        let e = Estimator::new(&net, &shape);
+        (net, e, shape)
+    }
+
+    #[test]
+    fn single_pole_reading_and_first_order() {
+        // Rectangle into a/(s+a): reading/ideal = (1 − e^(−x))/x (handbook closed form), and the
+        // first-order estimate −x/2 from h′(0⁺)(end − c) (Taylor expansion).
+        let a = 100.0;
+        let (_, e, shape) = est(NetworkSpec::Polynomial {
+            numerator: vec![a],
+            denominator: vec![1.0, a],
+        });
+        assert!((shape.peak - a).abs() < 1e-9 * a);
+        let x = 0.01;
+        let p = Trapezoid {
+            amplitude: a / x,
+            rise: 0.0,
+            flat: x / a,
+            fall: 0.0,
+        };
+        let est = e.estimate(&p, 1.0);
+        let want = (-(-x).exp_m1()) / x - 1.0;
+        assert!((est.t0.rel - want).abs() < 1e-12);
+        assert!((est.first_order.t0_rel - (-x / 2.0 + x * x / 24.0)).abs() < 1e-12);
+        // Aligned at the centroid: (reading − h(w/2))/h(0⁺) = (1 − e^(−x))/x − e^(−x/2) (closed form).
+        let want_al = (-(-x).exp_m1()) / x - (-x / 2.0).exp();
+        assert!((est.t0_aligned.rel - want_al).abs() < 1e-12);
+        // After the pulse the error is proportional to h, so the window max is at the end.
+        assert!((est.window.max_rel - want_al.abs()).abs() < 1e-9);
+    }
+
+    #[test]
+    fn settle_time_of_single_pole() {
+        // |h| = a·e^(−at) falls to 0.1 % of its peak at t = ln(1000)/a (closed form).
+        let a = 50.0;
+        let (_, _, shape) = est(NetworkSpec::Polynomial {
+            numerator: vec![a],
+            denominator: vec![1.0, a],
+        });
+        let want = 1000f64.ln() / a;
+        assert!((shape.settle.unwrap() - want).abs() < 1e-9 * want);
+    }
+
+    #[test]
+    fn low_pass_rlc_is_normalised_by_peak() {
+        // ω0²/(s² + 2ζω0 s + ω0²): h(0⁺) = 0 (initial-value theorem, relative degree 2); the
+        // peak of h is ω0/√(1−ζ²)·e^(−ζ φ/√(1−ζ²)) at t = φ/ω_d, φ = arccos ζ (closed form).
+        let (w0, z) = (1000.0f64, 0.3f64);
+        let (_, e, shape) = est(NetworkSpec::Polynomial {
+            numerator: vec![w0 * w0],
+            denominator: vec![1.0, 2.0 * z * w0, w0 * w0],
+        });
+        let phi = z.acos();
+        let wd = w0 * (1.0 - z * z).sqrt();
+        let want = w0 / (1.0 - z * z).sqrt() * (-z * w0 * phi / wd).exp() * phi.sin();
+        assert!((shape.peak - want).abs() < 1e-9 * want, "{} {}", shape.peak, want);
+        assert_eq!(e.normalised_by(), NormalisedBy::Peak);
+    }
+}

@@ -1,0 +1,31 @@
+//! pulseplan command-line entry point: parse, dispatch, print the error chain, exit.
+//! Exit codes: 0 fine, 1 ran with warnings, 2 bad input or failure.
+
+use clap::Parser;
+use pulseplan::cli::{self, Cli, Outcome};
+use std::process::ExitCode;
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match cli::run(cli) {
+        Ok(Outcome::Clean) => ExitCode::from(0),
+        Ok(Outcome::Warned) => ExitCode::from(1),
+        Err(err) => {
+            if is_broken_pipe(&err) {
+                return ExitCode::from(0);
+            }
+            eprintln!("error: {err}");
+            for cause in err.chain().skip(1) {
+                eprintln!("  caused by: {cause}");
+            }
+            ExitCode::from(2)
+        }
+    }
+}
+
+fn is_broken_pipe(err: &anyhow::Error) -> bool {
+    err.chain().any(|c| {
+        c.downcast_ref::<std::io::Error>()
+            .is_some_and(|e| e.kind() == std::io::ErrorKind::BrokenPipe)
+    })
+}

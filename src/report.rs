@@ -1,0 +1,605 @@
+//! Reports: the text report, the JSON object, and the response CSV.
+
+use crate::estimate::{ErrorEstimate, Reading};
+use crate::network::Network;
+use crate::plan::{AssessOutcome, PlanOutcome, Prepared, Target, Warning};
+use crate::pulse::Trapezoid;
+use crate::response::Modal;
+use crate::scenario::Scenario;
+use crate::units::{Dim, eng, eng_number, percent};
+use serde_json::{Value, json};
+use std::fmt::Write as _;
+use std::io::Write as _;
+use std::path::Path;
+
+/// One cursor reading: ideal and predicted values at a chosen instant.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Cursor {
+    /// Time, s.
+    pub t: f64,
+    /// Ideal h(t).
+    pub ideal: f64,
+    /// h(t − centroid), the ideal the reading stands for once the pulse delay is allowed for.
+    pub ideal_aligned: f64,
+    /// Predicted y(t)/area.
+    pub predicted: f64,
+}
+
+/// Read cursors on the predicted and ideal responses.
+pub fn cursors(net: &Network, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
+    let modal = Modal::new(net);
+    let h = modal.impulse();
+    let driven = modal.drive(&pulse.breakpoints());
+    let c = pulse.centroid();
+    let area = pulse.area();
+    times
+        .iter()
+        .map(|&t| Cursor {
+            t,
+            ideal: if t > 0.0 { h.at(t) } else { 0.0 },
+            ideal_aligned: if t > c { h.at(t - c) } else { 0.0 },
+            predicted: driven.at(t) / area,
+        })
+        .collect()
+}
+
+fn c2(z: num_complex::Complex64) -> Value {
+    json!([z.re, z.im])
+}
+
+fn finite(v: f64) -> Value {
+    if v.is_finite() { json!(v) } else { Value::Null }
+}
+
+/// The network part of the JSON.
+pub fn network_json(net: &Network, prep: &Prepared) -> Value {
+    let modes: Vec<Value> = net
+        .modes
+        .iter()
+        .map(|m| {
+            json!({
+                "pole": c2(m.pole),
+                "multiplicity": m.multiplicity(),
+                "residues": if net.residues_known {
+                    Value::Array(m.residues.iter().map(|&r| c2(r)).collect())
+                } else { Value::Null },
+                "time_constant": finite(m.time_constant()),
+                "natural_frequency": m.natural_frequency(),
+                "damping": m.damping().map_or(Value::Null, |d| json!(d)),
+            })
+        })
+        .collect();
+    json!({
+        "form": net.form.name(),
+        "order": net.order(),
+        "modes": modes,
+        "zeros": net.zeros.iter().map(|&z| c2(z)).collect::<Vec<_>>(),
+        "direct": net.direct,
+        "improper": net.improper,
+        "residues_known": net.residues_known,
+        "h0_plus": if net.residues_known { json!(net.h0_plus()) } else { Value::Null },
+        "h0_plus_ivt": if net.residues_known { json!(net.h0_ivt) } else { Value::Null },
+        "peak": prep.shape.peak,
+        "t_peak": prep.shape.t_peak,
+        "settle_time": prep.shape.settle,
+        "tau_fast": prep.tau_fast,
+        "tau_slow": prep.tau_slow,
+        "stable": net.stable(),
+    })
+}
+
+/// The pulse part of the JSON (both the generator and the ramp view).
+pub fn pulse_json(p: &Trapezoid, run: f64) -> Value {
+    json!({
+        "amplitude": p.amplitude,
+        "area": p.area(),
+        "width": p.width_50(),
+        "flat": p.flat,
+        "rise": p.rise,
+        "fall": p.fall,
+        "rise_10_90": p.rise_10_90(),
+        "fall_10_90": p.fall_10_90(),
+        "centroid": p.centroid(),
+        "sigma": p.variance().sqrt(),
+        "end": p.end(),
+        "run": run,
+    })
+}
+
+fn reading_json(r: &Reading) -> Value {
+    json!({"reading": r.reading, "ideal": r.ideal, "abs": r.abs, "rel": r.rel})
+}
+
+/// The error part of the JSON.
+pub fn error_json(e: &ErrorEstimate) -> Value {
+    let mut v = json!({
+        "t0": reading_json(&e.t0),
+        "t0_aligned": reading_json(&e.t0_aligned),
+        "window": {"max_rel": e.window.max_rel, "t_max": e.window.t_max, "rms_rel": e.window.rms_rel},
+        "normalised_by": e.normalised_by.name(),
+        "normaliser": e.normaliser,
+        "first_order": {
+            "t0_rel": e.first_order.t0_rel,
+            "t0_aligned_rel": e.first_order.t0_aligned_rel,
+            "sigma": e.first_order.sigma,
+        },
+    });
+    if !e.per_mode.is_empty() {
+        v["per_mode"] = Value::Array(
+            e.per_mode
+                .iter()
+                .map(|(tau, m)| {
+                    json!({
+                        "time_constant": tau,
+                        "t0_rel": m.t0.rel,
+                        "t0_aligned_rel": m.t0_aligned.rel,
+                        "window_max_rel": m.window.max_rel,
+                        "window_rms_rel": m.window.rms_rel,
+                    })
+                })
+                .collect(),
+        );
+        v["normalised_by"] = json!("each mode's own h(0+)");
+    }
+    v
+}
+
+fn cursors_json(cs: &[Cursor]) -> Value {
+    Value::Array(
+        cs.iter()
+            .map(|c| {
+                json!({
+                    "t": c.t, "ideal": c.ideal, "ideal_aligned": c.ideal_aligned,
+                    "predicted": c.predicted, "difference": c.predicted - c.ideal,
+                    "difference_aligned": c.predicted - c.ideal_aligned,
+                })
+            })
+            .collect(),
+    )
+}
+
+fn warnings_json(w: &[Warning]) -> Value {
+    serde_json::to_value(w).unwrap_or(Value::Null)
+}
+
+fn scenario_json(sc: &Scenario) -> Value {
+    json!({
+        "file": sc.file,
+        "title": sc.title,
+        "drive": match sc.drive { crate::scenario::DriveKind::Voltage => "voltage", _ => "current" },
+        "area_unit": sc.drive.area_unit(),
+        "metric": sc.plan.metric.name(),
+        "target_error": sc.plan.target_error,
+    })
+}
+
+/// JSON for `plan`.
+pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
+    let target = match &out.target {
+        None => Value::Null,
+        Some(Target::Met { width, value }) => {
+            json!({"met": true, "width": width, "value": value, "widening": out.widening})
+        }
+        Some(Target::Unreachable { width, value }) => {
+            json!({"met": false, "narrowest_tried": width, "value": value})
+        }
+    };
+    json!({
+        "command": "plan",
+        "scenario": scenario_json(sc),
+        "network": network_json(&sc.network, &out.prep),
+        "pulse": pulse_json(&out.pulse, out.prep.run),
+        "error": error_json(&out.estimate),
+        "plan": {
+            "rule_of_thumb": {
+                "pulse": pulse_json(&out.rule, out.prep.run),
+                "error": error_json(&out.rule_estimate),
+            },
+            "target": target,
+            "run_basis": out.prep.run_basis,
+        },
+        "at": cursors_json(cs),
+        "warnings": warnings_json(&out.warnings),
+    })
+}
+
+/// JSON for `assess`.
+pub fn assess_json(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> Value {
+    json!({
+        "command": "assess",
+        "scenario": scenario_json(sc),
+        "network": network_json(&sc.network, &out.prep),
+        "pulse": pulse_json(&out.pulse, out.run),
+        "error": error_json(&out.estimate),
+        "at": cursors_json(cs),
+        "warnings": warnings_json(&out.warnings),
+    })
+}
+
+fn pole_text(z: num_complex::Complex64) -> String {
+    let re = eng_number(z.re, 5);
+    if z.im == 0.0 {
+        re.trim_end().to_string()
+    } else {
+        let im = eng_number(z.im.abs(), 5);
+        format!(
+            "{} {} j{}",
+            re.trim_end(),
+            if z.im < 0.0 { "−" } else { "+" },
+            im.trim_end()
+        )
+    }
+}
+
+/// A value in engineering notation followed by a compound unit: 5e-3, "V·s" → "5 mV·s".
+pub fn with_unit(v: f64, unit: &str) -> String {
+    format!("{}{unit}", eng_number(v, 4))
+}
+
+fn value_text(v: f64) -> String {
+    eng_number(v, 5).trim_end().to_string()
+}
+
+/// The network section of the text report.
+fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
+    let _ = writeln!(s, "Network ({}, order {})", net.form.name(), net.order());
+    let _ = writeln!(
+        s,
+        "  {:<26} {:>4}  {:<30} {:>10} {:>12} {:>8}",
+        "pole [rad/s]", "m", "residues r1, r2… [1/s^k]", "τ", "|p|", "ζ"
+    );
+    for m in &net.modes {
+        let res = if net.residues_known {
+            m.residues
+                .iter()
+                .map(|&r| pole_text(r))
+                .collect::<Vec<_>>()
+                .join(", ")
+        } else {
+            "unknown".to_string()
+        };
+        let tau = if m.pole.re != 0.0 {
+            eng(m.time_constant(), Dim::Time)
+        } else {
+            "∞".into()
+        };
+        let zeta = m.damping().map_or("–".into(), |d| format!("{d:.4}"));
+        let _ = writeln!(
+            s,
+            "  {:<26} {:>4}  {:<30} {:>10} {:>12} {:>8}",
+            pole_text(m.pole),
+            m.multiplicity(),
+            res,
+            tau,
+            eng(m.natural_frequency(), Dim::AngularFrequency),
+            zeta
+        );
+    }
+    if !net.zeros.is_empty() {
+        let zs: Vec<String> = net.zeros.iter().map(|&z| pole_text(z)).collect();
+        let _ = writeln!(s, "  zeros [rad/s]: {}", zs.join(", "));
+    }
+    if net.residues_known {
+        let _ = writeln!(s, "  direct term D          {}", value_text(net.direct));
+        let _ = writeln!(
+            s,
+            "  h(0⁺)                  {} /s from the modes, {} /s by the initial-value theorem",
+            value_text(net.h0_plus()),
+            value_text(net.h0_ivt)
+        );
+        let _ = writeln!(
+            s,
+            "  peak |h|               {} /s at {}",
+            value_text(prep.shape.peak),
+            eng(prep.shape.t_peak, Dim::Time)
+        );
+    } else {
+        let _ = writeln!(
+            s,
+            "  residues unknown: each mode is taken as e^(−t/τ) and errors are per mode"
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  fastest time scale     {}   (1/max|p|)",
+        eng(prep.tau_fast, Dim::Time)
+    );
+    match prep.tau_slow {
+        Some(t) => {
+            let _ = writeln!(
+                s,
+                "  slowest time constant  {}   (1/min|Re p|)",
+                eng(t, Dim::Time)
+            );
+        }
+        None => {
+            let _ = writeln!(s, "  slowest time constant  none: no mode decays");
+        }
+    }
+    if let Some(ts) = prep.shape.settle {
+        let _ = writeln!(
+            s,
+            "  settles (|h| < 0.1 % of peak) after {}",
+            eng(ts, Dim::Time)
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  stable                 {}",
+        if net.stable() { "yes" } else { "NO" }
+    );
+}
+
+fn pulse_text(s: &mut String, heading: &str, p: &Trapezoid, run: f64, sc: &Scenario) {
+    let amp_dim = sc.drive.dim();
+    let _ = writeln!(s, "{heading}");
+    let _ = writeln!(
+        s,
+        "  amplitude {}   area {}   centroid {}   ends at {}",
+        eng(p.amplitude, amp_dim),
+        with_unit(p.area(), sc.drive.area_unit()),
+        eng(p.centroid(), Dim::Time),
+        eng(p.end(), Dim::Time)
+    );
+    let _ = writeln!(
+        s,
+        "  generator view: width (50 %) {}   rise 10–90 % {}   fall 10–90 % {}",
+        eng(p.width_50(), Dim::Time),
+        eng(p.rise_10_90(), Dim::Time),
+        eng(p.fall_10_90(), Dim::Time)
+    );
+    let _ = writeln!(
+        s,
+        "  ramp view:      flat top {}   full rise {}   full fall {}",
+        eng(p.flat, Dim::Time),
+        eng(p.rise, Dim::Time),
+        eng(p.fall, Dim::Time)
+    );
+    let _ = writeln!(s, "  run (record length) {}", eng(run, Dim::Time));
+}
+
+fn error_text(s: &mut String, e: &ErrorEstimate) {
+    let norm = match e.normalised_by {
+        crate::estimate::NormalisedBy::H0Plus => "|h(0⁺)|",
+        crate::estimate::NormalisedBy::Peak => "peak |h| (h(0⁺) = 0)",
+    };
+    if e.per_mode.is_empty() {
+        let _ = writeln!(s, "Predicted error (exact; relative to {norm})");
+        let _ = writeln!(
+            s,
+            "  at t = 0⁺, raw      reading {} /s vs h(0⁺) {} /s: {}   (first-order estimate {})",
+            value_text(e.t0.reading),
+            value_text(e.t0.ideal),
+            percent(e.t0.rel),
+            percent(e.first_order.t0_rel)
+        );
+        let _ = writeln!(
+            s,
+            "  at t = 0⁺, aligned  vs h(end − centroid) {} /s: {}   (first-order estimate ½σ²h″: {})",
+            value_text(e.t0_aligned.ideal),
+            percent(e.t0_aligned.rel),
+            percent(e.first_order.t0_aligned_rel)
+        );
+    } else {
+        let _ = writeln!(
+            s,
+            "Predicted error per mode (exact; each relative to its own h(0⁺))"
+        );
+        let _ = writeln!(
+            s,
+            "  {:>10}  {:>14}  {:>14}  {:>14}",
+            "τ", "raw at 0⁺", "aligned", "window max"
+        );
+        for (tau, m) in &e.per_mode {
+            let _ = writeln!(
+                s,
+                "  {:>10}  {:>14}  {:>14}  {:>14}",
+                eng(*tau, Dim::Time),
+                percent(m.t0.rel),
+                percent(m.t0_aligned.rel),
+                percent(m.window.max_rel)
+            );
+        }
+        let _ = writeln!(
+            s,
+            "  worst mode: raw {}, aligned {}",
+            percent(e.t0.rel),
+            percent(e.t0_aligned.rel)
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  over the window     max {} (at {}), RMS {}   [y(t)/area vs h(t − centroid), end ≤ t ≤ run]",
+        percent(e.window.max_rel),
+        eng(e.window.t_max, Dim::Time),
+        percent(e.window.rms_rel)
+    );
+}
+
+fn cursors_text(s: &mut String, cs: &[Cursor]) {
+    if cs.is_empty() {
+        return;
+    }
+    let _ = writeln!(s, "Cursors");
+    let _ = writeln!(
+        s,
+        "  {:>12}  {:>14}  {:>14}  {:>14}  {:>14}",
+        "t", "ideal h(t)", "y(t)/area", "difference", "vs h(t − c)"
+    );
+    for c in cs {
+        let _ = writeln!(
+            s,
+            "  {:>12}  {:>14}  {:>14}  {:>14}  {:>14}",
+            eng(c.t, Dim::Time),
+            value_text(c.ideal),
+            value_text(c.predicted),
+            value_text(c.predicted - c.ideal),
+            value_text(c.predicted - c.ideal_aligned)
+        );
+    }
+}
+
+fn warnings_text(s: &mut String, ws: &[Warning]) {
+    if ws.is_empty() {
+        let _ = writeln!(s, "No warnings.");
+        return;
+    }
+    let _ = writeln!(s, "Warnings");
+    for w in ws {
+        let _ = writeln!(s, "  [{}] {}", w.code, w.message);
+    }
+}
+
+fn header(s: &mut String, sc: &Scenario, verb: &str) {
+    let _ = writeln!(
+        s,
+        "pulseplan {verb} — {}{}",
+        sc.file,
+        sc.title
+            .as_ref()
+            .map(|t| format!(": {t}"))
+            .unwrap_or_default()
+    );
+    let _ = writeln!(s);
+}
+
+/// Text report for `plan`.
+pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
+    let mut s = String::new();
+    header(&mut s, sc, "plan");
+    network_text(&mut s, &sc.network, &out.prep);
+    let _ = writeln!(s);
+    let rule_heading = format!(
+        "Rule of thumb (common practice, no source): width = τ_fast/{}, edges = width/{}",
+        sc.plan.width_ratio, sc.plan.edge_ratio
+    );
+    pulse_text(&mut s, &rule_heading, &out.rule, out.prep.run, sc);
+    let _ = writeln!(
+        s,
+        "  errors: raw at 0⁺ {}, aligned {}, window max {}",
+        percent(out.rule_estimate.t0.rel),
+        percent(out.rule_estimate.t0_aligned.rel),
+        percent(out.rule_estimate.window.max_rel)
+    );
+    let _ = writeln!(s);
+    match &out.target {
+        Some(Target::Met { width, value }) => {
+            let _ = writeln!(
+                s,
+                "Error budget: {} on the {} error → widest width {} (error {}), {:.2}× the rule-of-thumb width",
+                crate::units::budget(sc.plan.target_error.unwrap_or(0.0)),
+                sc.plan.metric.name(),
+                eng(*width, Dim::Time),
+                percent(*value),
+                out.widening.unwrap_or(1.0)
+            );
+            let _ = writeln!(s);
+            pulse_text(&mut s, "Recommended pulse", &out.pulse, out.prep.run, sc);
+        }
+        Some(Target::Unreachable { .. }) => {
+            let _ = writeln!(
+                s,
+                "Error budget cannot be met (see warnings); the rule-of-thumb pulse stands."
+            );
+        }
+        None => {
+            let _ = writeln!(
+                s,
+                "No error budget given ([plan] target_error): the rule-of-thumb pulse is recommended."
+            );
+        }
+    }
+    let _ = writeln!(s, "  run length basis: {}", out.prep.run_basis);
+    let _ = writeln!(s);
+    error_text(&mut s, &out.estimate);
+    let _ = writeln!(s);
+    cursors_text(&mut s, cs);
+    warnings_text(&mut s, &out.warnings);
+    s
+}
+
+/// Text report for `assess`.
+pub fn assess_text(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> String {
+    let mut s = String::new();
+    header(&mut s, sc, "assess");
+    network_text(&mut s, &sc.network, &out.prep);
+    let _ = writeln!(s);
+    pulse_text(&mut s, "Pulse assessed ([pulse])", &out.pulse, out.run, sc);
+    let _ = writeln!(s);
+    error_text(&mut s, &out.estimate);
+    let _ = writeln!(s);
+    cursors_text(&mut s, cs);
+    warnings_text(&mut s, &out.warnings);
+    s
+}
+
+/// Rows of the response table: t, ideal h(t), y(t)/area, error, h(t − c), aligned error.
+pub fn response_rows(net: &Network, pulse: &Trapezoid, run: f64, points: usize) -> Vec<[f64; 6]> {
+    let mut times: Vec<f64> = (0..points)
+        .map(|k| run * k as f64 / (points - 1).max(1) as f64)
+        .collect();
+    // Honour the breakpoints and resolve the pulse itself.
+    let end = pulse.end();
+    times.extend(pulse.breakpoints().iter().map(|b| b.0));
+    times.extend((1..64).map(|k| end * k as f64 / 64.0));
+    times.retain(|t| *t <= run);
+    times.sort_by(f64::total_cmp);
+    times.dedup();
+    cursors(net, pulse, &times)
+        .into_iter()
+        .map(|c| {
+            [
+                c.t,
+                c.ideal,
+                c.predicted,
+                c.predicted - c.ideal,
+                c.ideal_aligned,
+                c.predicted - c.ideal_aligned,
+            ]
+        })
+        .collect()
+}
+
+/// Write the response CSV atomically (temporary file in the same folder, then rename).
+pub fn write_response_csv(path: &Path, rows: &[[f64; 6]]) -> std::io::Result<()> {
+    let mut buf = Vec::new();
+    {
+        let mut w = csv::Writer::from_writer(&mut buf);
+        w.write_record([
+            "t",
+            "ideal",
+            "predicted",
+            "error",
+            "ideal_aligned",
+            "error_aligned",
+        ])?;
+        for r in rows {
+            w.write_record(r.iter().map(|v| format!("{v:.17e}")))?;
+        }
+        w.flush()?;
+    }
+    write_atomic(path, &buf)
+}
+
+/// Write bytes to `path` via a temporary sibling and a rename, so no half-written file remains.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    let dir = path
+        .parent()
+        .filter(|d| !d.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "out".into());
+    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let result = (|| {
+        let mut f = std::fs::File::create(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+        std::fs::rename(&tmp, path)
+    })();
+    if result.is_err() {
+        let _ = std::fs::remove_file(&tmp);
+    }
+    result
+}

@@ -1,0 +1,687 @@
+//! Scenario files: the TOML schema, validation with file:line messages, and conversion into
+//! the model types the rest of the library uses.
+
+use crate::network::{Network, NetworkError, NetworkSpec};
+use crate::pulse::{Convention, Trapezoid};
+use crate::units::{self, Dim};
+use num_complex::Complex64;
+use serde::Deserialize;
+use std::ops::Range;
+use std::path::Path;
+use toml::Spanned;
+
+/// A bad scenario: where, which key, what is wrong.
+#[derive(Debug, thiserror::Error, Clone, PartialEq)]
+#[error("{file}:{line}: {key}: {message}")]
+pub struct ScenarioError {
+    /// File name as given.
+    pub file: String,
+    /// 1-based line (1 when the problem concerns the whole file).
+    pub line: usize,
+    /// Dotted key, e.g. `network.poles[1]`.
+    pub key: String,
+    /// What is wrong and what would be accepted.
+    pub message: String,
+}
+
+/// How the stimulus drives the input.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DriveKind {
+    /// A voltage source: areas in V·s.
+    Voltage,
+    /// A current source: areas in A·s.
+    Current,
+}
+
+impl DriveKind {
+    /// Dimension of the pulse amplitude.
+    pub fn dim(self) -> Dim {
+        match self {
+            DriveKind::Voltage => Dim::Voltage,
+            DriveKind::Current => Dim::Current,
+        }
+    }
+
+    /// Unit of the pulse area.
+    pub fn area_unit(self) -> &'static str {
+        match self {
+            DriveKind::Voltage => "V·s",
+            DriveKind::Current => "A·s",
+        }
+    }
+}
+
+/// Which error figure a budget applies to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Metric {
+    /// Raw reading at t = 0⁺: y(end)/area vs h(0⁺).
+    T0,
+    /// Centroid-aligned reading: y(end)/area vs h(end − centroid).
+    T0Aligned,
+    /// Largest error over the window after the pulse.
+    Window,
+}
+
+impl Metric {
+    /// Name as written in scenarios and reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            Metric::T0 => "t0",
+            Metric::T0Aligned => "t0-aligned",
+            Metric::Window => "window",
+        }
+    }
+}
+
+/// The `[plan]` settings with defaults applied.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanSettings {
+    /// Error budget as a fraction; `None` → rule of thumb.
+    pub target_error: Option<f64>,
+    /// Metric the budget applies to.
+    pub metric: Metric,
+    /// Fastest time scale / width for the rule of thumb.
+    pub width_ratio: f64,
+    /// Width / 10–90 % edge.
+    pub edge_ratio: f64,
+    /// Run length in slowest time constants.
+    pub settle_multiple: f64,
+}
+
+impl Default for PlanSettings {
+    fn default() -> Self {
+        // The trade's rule of thumb (common practice, no source): width ≈ τ_fast/100,
+        // edges ≈ width/100, run ≥ 5 τ_slow.
+        PlanSettings {
+            target_error: None,
+            metric: Metric::T0,
+            width_ratio: 100.0,
+            edge_ratio: 100.0,
+            settle_multiple: 5.0,
+        }
+    }
+}
+
+/// The user's own pulse from `[pulse]`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GivenPulse {
+    /// The trapezoid it describes.
+    pub pulse: Trapezoid,
+    /// The convention its figures were written in.
+    pub convention: Convention,
+    /// Planned record length, if stated.
+    pub run: Option<f64>,
+}
+
+/// A validated scenario.
+#[derive(Debug, Clone)]
+pub struct Scenario {
+    /// File name as given.
+    pub file: String,
+    /// Short name (file stem), for output folders.
+    pub name: String,
+    /// Optional title.
+    pub title: Option<String>,
+    /// The network specification.
+    pub network_spec: NetworkSpec,
+    /// The analysed network.
+    pub network: Network,
+    /// Drive kind.
+    pub drive: DriveKind,
+    /// Pulse area for planning (V·s or A·s).
+    pub area: f64,
+    /// Plan settings.
+    pub plan: PlanSettings,
+    /// The user's own pulse, if any.
+    pub pulse: Option<GivenPulse>,
+    /// Sections present but not used by this version (reported as notes).
+    pub ignored_sections: Vec<String>,
+}
+
+/// A quantity as written: a TOML number or a string with engineering notation.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(untagged)]
+enum Qty {
+    Int(i64),
+    Float(f64),
+    Text(String),
+}
+
+type SQty = Spanned<Qty>;
+type SList = Spanned<Vec<SQty>>;
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawScenario {
+    title: Option<String>,
+    network: Option<Spanned<RawNetwork>>,
+    drive: Option<Spanned<RawDrive>>,
+    plan: Option<RawPlan>,
+    pulse: Option<Spanned<RawPulse>>,
+    generator: Option<toml::Value>,
+    capture: Option<toml::Value>,
+    limits: Option<toml::Value>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawNetwork {
+    time_constants: Option<SList>,
+    numerator: Option<SList>,
+    denominator: Option<SList>,
+    poles: Option<SList>,
+    zeros: Option<SList>,
+    gain: Option<SQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawDrive {
+    kind: Option<Spanned<String>>,
+    area: Option<SQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawPlan {
+    target_error: Option<SQty>,
+    metric: Option<Spanned<String>>,
+    width_ratio: Option<SQty>,
+    edge_ratio: Option<SQty>,
+    settle_multiple: Option<SQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawPulse {
+    amplitude: Option<SQty>,
+    width: Option<SQty>,
+    rise: Option<SQty>,
+    fall: Option<SQty>,
+    convention: Option<Spanned<String>>,
+    run: Option<SQty>,
+}
+
+/// Reads one file's values, turning spans into line numbers for messages.
+struct Reader<'a> {
+    file: &'a str,
+    text: &'a str,
+}
+
+impl Reader<'_> {
+    fn line_of(&self, span: &Range<usize>) -> usize {
+        let end = span.start.min(self.text.len());
+        self.text[..end].bytes().filter(|&b| b == b'\n').count() + 1
+    }
+
+    fn err(&self, span: Option<&Range<usize>>, key: &str, message: impl Into<String>) -> ScenarioError {
+        ScenarioError {
+            file: self.file.to_string(),
+            line: span.map_or(1, |s| self.line_of(s)),
+            key: key.to_string(),
+            message: message.into(),
+        }
+    }
+
+    fn number(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
+        let v = match q.get_ref() {
+            Qty::Int(i) => *i as f64,
+            Qty::Float(f) => *f,
+            Qty::Text(t) => {
+                units::parse_quantity(t, dim).map_err(|e| self.err(Some(&q.span()), key, e.to_string()))?
+            }
+        };
+        if !v.is_finite() {
+            return Err(self.err(Some(&q.span()), key, format!("{v} is not a finite number")));
+        }
+        Ok(v)
+    }
+
+    fn positive(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
+        let v = self.number(q, key, dim)?;
+        if v <= 0.0 {
+            return Err(self.err(Some(&q.span()), key, format!("must be positive, got {v}")));
+        }
+        Ok(v)
+    }
+
+    fn list(&self, l: &SList, key: &str, dim: Dim) -> Result<Vec<f64>, ScenarioError> {
+        l.get_ref()
+            .iter()
+            .enumerate()
+            .map(|(i, q)| self.number(q, &format!("{key}[{i}]"), dim))
+            .collect()
+    }
+
+    fn complex_list(&self, l: &SList, key: &str) -> Result<Vec<Complex64>, ScenarioError> {
+        l.get_ref()
+            .iter()
+            .enumerate()
+            .map(|(i, q)| {
+                let k = format!("{key}[{i}]");
+                let z = match q.get_ref() {
+                    Qty::Int(v) => Complex64::new(*v as f64, 0.0),
+                    Qty::Float(v) => Complex64::new(*v, 0.0),
+                    Qty::Text(t) => units::parse_complex(t)
+                        .map_err(|e| self.err(Some(&q.span()), &k, e.to_string()))?,
+                };
+                if !(z.re.is_finite() && z.im.is_finite()) {
+                    return Err(self.err(Some(&q.span()), &k, "is not a finite number"));
+                }
+                Ok(z)
+            })
+            .collect()
+    }
+}
+
+/// Read and validate a scenario file.
+pub fn load(path: &Path) -> Result<Scenario, ScenarioError> {
+    let file = path.display().to_string();
+    let text = std::fs::read_to_string(path).map_err(|e| ScenarioError {
+        file: file.clone(),
+        line: 1,
+        key: "(file)".into(),
+        message: format!("cannot read: {e}"),
+    })?;
+    let name = path
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "scenario".into());
+    parse(&file, &name, &text)
+}
+
+/// Parse and validate scenario text (`file` is used in messages only).
+pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioError> {
+    let rd = Reader { file, text };
+    let raw: RawScenario = toml::from_str(text).map_err(|e| {
+        let span = e.span();
+        let mut msg = e.message().trim().to_string();
+        if msg.contains("invalid float") || msg.contains("invalid number") || msg.contains("string values must be quoted") {
+            msg.push_str(" (quantities with prefixes or units must be quoted, e.g. \"25.13k\" or \"4.7 nF\")");
+        }
+        rd.err(span.as_ref(), "(syntax)", msg)
+    })?;
+    let net_raw = raw
+        .network
+        .as_ref()
+        .ok_or_else(|| rd.err(None, "network", "the [network] section is missing: give time_constants, numerator/denominator, or poles/zeros/gain"))?;
+    let network_spec = network_spec(&rd, net_raw)?;
+    let network = Network::from_spec(&network_spec).map_err(|e| network_error(&rd, net_raw, e))?;
+
+    let (drive, area) = drive(&rd, raw.drive.as_ref())?;
+    let plan = plan_settings(&rd, raw.plan.as_ref())?;
+    let pulse = match &raw.pulse {
+        Some(p) => Some(given_pulse(&rd, p, drive)?),
+        None => None,
+    };
+    let ignored_sections = [
+        ("generator", raw.generator.is_some()),
+        ("capture", raw.capture.is_some()),
+        ("limits", raw.limits.is_some()),
+    ]
+    .iter()
+    .filter(|(_, present)| *present)
+    .map(|(n, _)| n.to_string())
+    .collect();
+    Ok(Scenario {
+        file: file.to_string(),
+        name: name.to_string(),
+        title: raw.title,
+        network_spec,
+        network,
+        drive,
+        area,
+        plan,
+        pulse,
+        ignored_sections,
+    })
+}
+
+fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, ScenarioError> {
+    let n = net.get_ref();
+    let forms: Vec<(&str, Range<usize>)> = [
+        ("time_constants", n.time_constants.as_ref().map(|l| l.span())),
+        (
+            "numerator/denominator",
+            n.numerator
+                .as_ref()
+                .or(n.denominator.as_ref())
+                .map(|l| l.span()),
+        ),
+        (
+            "poles/zeros/gain",
+            n.poles
+                .as_ref()
+                .or(n.zeros.as_ref())
+                .map(|l| l.span())
+                .or(n.gain.as_ref().map(|g| g.span())),
+        ),
+    ]
+    .into_iter()
+    .filter_map(|(name, span)| span.map(|s| (name, s)))
+    .collect();
+    match forms.len() {
+        0 => {
+            return Err(rd.err(
+                Some(&net.span()),
+                "network",
+                "no network form given: use time_constants, numerator/denominator, or poles/zeros/gain",
+            ));
+        }
+        1 => {}
+        _ => {
+            let mut sorted = forms.clone();
+            sorted.sort_by_key(|f| f.1.start);
+            return Err(rd.err(
+                Some(&sorted[1].1),
+                &format!("network.{}", sorted[1].0.split('/').next().unwrap_or("")),
+                format!(
+                    "two network forms at once ({} and {}); give exactly one",
+                    sorted[0].0, sorted[1].0
+                ),
+            ));
+        }
+    }
+    if let Some(l) = &n.time_constants {
+        let taus = rd.list(l, "network.time_constants", Dim::Time)?;
+        if taus.is_empty() {
+            return Err(rd.err(Some(&l.span()), "network.time_constants", "is empty"));
+        }
+        for (i, (t, q)) in taus.iter().zip(l.get_ref()).enumerate() {
+            if *t <= 0.0 {
+                return Err(rd.err(
+                    Some(&q.span()),
+                    &format!("network.time_constants[{i}]"),
+                    format!("time constant must be positive, got {t}"),
+                ));
+            }
+        }
+        return Ok(NetworkSpec::TimeConstants(taus));
+    }
+    if n.numerator.is_some() || n.denominator.is_some() {
+        let num_l = n.numerator.as_ref().ok_or_else(|| {
+            rd.err(Some(&net.span()), "network.numerator", "denominator given without numerator")
+        })?;
+        let den_l = n.denominator.as_ref().ok_or_else(|| {
+            rd.err(Some(&num_l.span()), "network.denominator", "numerator given without denominator")
+        })?;
+        let numerator = rd.list(num_l, "network.numerator", Dim::Number)?;
+        let denominator = rd.list(den_l, "network.denominator", Dim::Number)?;
+        if denominator.iter().all(|&c| c == 0.0) {
+            return Err(rd.err(
+                Some(&den_l.span()),
+                "network.denominator",
+                "is zero (or empty): H(s) would be undefined",
+            ));
+        }
+        if numerator.iter().all(|&c| c == 0.0) {
+            return Err(rd.err(
+                Some(&num_l.span()),
+                "network.numerator",
+                "is zero (or empty): the network has no response to measure",
+            ));
+        }
+        if denominator.len() - denominator.iter().position(|&c| c != 0.0).unwrap_or(0) < 2 {
+            return Err(rd.err(
+                Some(&den_l.span()),
+                "network.denominator",
+                "is a constant: H(s) has no poles, so there is no impulse response to plan for",
+            ));
+        }
+        return Ok(NetworkSpec::Polynomial {
+            numerator,
+            denominator,
+        });
+    }
+    let poles_l = n.poles.as_ref().ok_or_else(|| {
+        rd.err(Some(&net.span()), "network.poles", "zeros/gain given without poles")
+    })?;
+    let poles = rd.complex_list(poles_l, "network.poles")?;
+    if poles.is_empty() {
+        return Err(rd.err(Some(&poles_l.span()), "network.poles", "is empty"));
+    }
+    let zeros = match &n.zeros {
+        Some(z) => rd.complex_list(z, "network.zeros")?,
+        None => Vec::new(),
+    };
+    let gain = match &n.gain {
+        Some(g) => rd.number(g, "network.gain", Dim::Number)?,
+        None => 1.0,
+    };
+    if gain == 0.0 {
+        let span = n.gain.as_ref().map(|g| g.span());
+        return Err(rd.err(span.as_ref(), "network.gain", "is zero: the network has no response"));
+    }
+    for (key, list, values) in [
+        ("network.poles", poles_l, &poles),
+        ("network.zeros", n.zeros.as_ref().unwrap_or(poles_l), &zeros),
+    ] {
+        for (i, z) in values.iter().enumerate() {
+            let tol = 1e-12 * z.norm();
+            if z.im != 0.0 && !values.iter().any(|w| (w - z.conj()).norm() <= tol) {
+                let span = list.get_ref().get(i).map(|q| q.span());
+                return Err(rd.err(
+                    span.as_ref(),
+                    &format!("{key}[{i}]"),
+                    format!(
+                        "complex value {}{:+}j has no conjugate partner {}{:+}j in the list; conjugate pairs are required",
+                        z.re, z.im, z.re, -z.im
+                    ),
+                ));
+            }
+        }
+    }
+    Ok(NetworkSpec::ZeroPoleGain { zeros, poles, gain })
+}
+
+fn network_error(rd: &Reader, net: &Spanned<RawNetwork>, e: NetworkError) -> ScenarioError {
+    rd.err(Some(&net.span()), "network", e.to_string())
+}
+
+fn drive(rd: &Reader, d: Option<&Spanned<RawDrive>>) -> Result<(DriveKind, f64), ScenarioError> {
+    let Some(d) = d else {
+        return Ok((DriveKind::Voltage, 1.0));
+    };
+    let raw = d.get_ref();
+    let kind = match &raw.kind {
+        None => DriveKind::Voltage,
+        Some(k) => match k.get_ref().as_str() {
+            "voltage" => DriveKind::Voltage,
+            "current" => DriveKind::Current,
+            other => {
+                return Err(rd.err(
+                    Some(&k.span()),
+                    "drive.kind",
+                    format!("\"{other}\" is not a drive kind; use \"voltage\" or \"current\""),
+                ));
+            }
+        },
+    };
+    let area = match &raw.area {
+        None => 1.0,
+        Some(q) => {
+            let stripped = match q.get_ref() {
+                Qty::Text(t) => Spanned::new(
+                    q.span(),
+                    Qty::Text(strip_area_unit(t, kind).to_string()),
+                ),
+                other => Spanned::new(q.span(), other.clone()),
+            };
+            rd.positive(&stripped, "drive.area", Dim::Number)?
+        }
+    };
+    Ok((kind, area))
+}
+
+fn strip_area_unit(text: &str, kind: DriveKind) -> &str {
+    let units: &[&str] = match kind {
+        DriveKind::Voltage => &["V·s", "V*s", "Vs", "V s"],
+        DriveKind::Current => &["A·s", "A*s", "As", "A s"],
+    };
+    let t = text.trim();
+    units
+        .iter()
+        .find_map(|u| t.strip_suffix(u))
+        .map_or(t, str::trim)
+}
+
+fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, ScenarioError> {
+    let mut s = PlanSettings::default();
+    let Some(p) = p else { return Ok(s) };
+    if let Some(q) = &p.target_error {
+        let v = rd.positive(q, "plan.target_error", Dim::Fraction)?;
+        if v >= 1.0 {
+            return Err(rd.err(
+                Some(&q.span()),
+                "plan.target_error",
+                format!("{} is not a useful error budget; give e.g. \"1 %\"", units::percent(v)),
+            ));
+        }
+        s.target_error = Some(v);
+    }
+    if let Some(m) = &p.metric {
+        s.metric = match m.get_ref().as_str() {
+            "t0" => Metric::T0,
+            "t0-aligned" => Metric::T0Aligned,
+            "window" => Metric::Window,
+            other => {
+                return Err(rd.err(
+                    Some(&m.span()),
+                    "plan.metric",
+                    format!("\"{other}\" is not a metric; use \"t0\", \"t0-aligned\" or \"window\""),
+                ));
+            }
+        };
+    }
+    if let Some(q) = &p.width_ratio {
+        s.width_ratio = rd.positive(q, "plan.width_ratio", Dim::Number)?;
+    }
+    if let Some(q) = &p.edge_ratio {
+        s.edge_ratio = rd.positive(q, "plan.edge_ratio", Dim::Number)?;
+        if s.edge_ratio <= 1.25 {
+            return Err(rd.err(
+                Some(&q.span()),
+                "plan.edge_ratio",
+                "must exceed 1.25: slower edges leave no flat top at the 50 % width",
+            ));
+        }
+    }
+    if let Some(q) = &p.settle_multiple {
+        s.settle_multiple = rd.positive(q, "plan.settle_multiple", Dim::Number)?;
+    }
+    Ok(s)
+}
+
+fn given_pulse(rd: &Reader, p: &Spanned<RawPulse>, kind: DriveKind) -> Result<GivenPulse, ScenarioError> {
+    let raw = p.get_ref();
+    let need = |q: &Option<SQty>, key: &str| {
+        q.clone().ok_or_else(|| {
+            rd.err(Some(&p.span()), key, "is required in [pulse]")
+        })
+    };
+    let amplitude = rd.number(&need(&raw.amplitude, "pulse.amplitude")?, "pulse.amplitude", kind.dim())?;
+    if amplitude == 0.0 {
+        let span = raw.amplitude.as_ref().map(|q| q.span());
+        return Err(rd.err(span.as_ref(), "pulse.amplitude", "is zero: no pulse"));
+    }
+    let width_q = need(&raw.width, "pulse.width")?;
+    let width = rd.positive(&width_q, "pulse.width", Dim::Time)?;
+    let edge = |q: &Option<SQty>, key: &str| -> Result<f64, ScenarioError> {
+        match q {
+            None => Ok(0.0),
+            Some(q) => {
+                let v = rd.number(q, key, Dim::Time)?;
+                if v < 0.0 {
+                    return Err(rd.err(Some(&q.span()), key, "must not be negative"));
+                }
+                Ok(v)
+            }
+        }
+    };
+    let rise = edge(&raw.rise, "pulse.rise")?;
+    let fall = edge(&raw.fall, "pulse.fall")?;
+    let convention = match &raw.convention {
+        None => Convention::Generator,
+        Some(c) => match c.get_ref().as_str() {
+            "generator" => Convention::Generator,
+            "ramp" => Convention::Ramp,
+            other => {
+                return Err(rd.err(
+                    Some(&c.span()),
+                    "pulse.convention",
+                    format!("\"{other}\" is not a convention; use \"generator\" or \"ramp\""),
+                ));
+            }
+        },
+    };
+    let run = match &raw.run {
+        None => None,
+        Some(q) => Some(rd.positive(q, "pulse.run", Dim::Time)?),
+    };
+    let pulse = Trapezoid::from_convention(amplitude, width, rise, fall, convention)
+        .map_err(|e| rd.err(Some(&width_q.span()), "pulse.width", e.to_string()))?;
+    Ok(GivenPulse {
+        pulse,
+        convention,
+        run,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const FULL: &str = r#"
+title = "Servo-valve driver loop filter, impulse test"   # optional
+[network]
+time_constants = ["12 ms", "300 us"]
+[drive]
+kind = "voltage"
+area = 1.0
+[plan]
+target_error = "1 %"
+metric = "t0"
+width_ratio = 100
+edge_ratio = 100
+settle_multiple = 5
+[pulse]
+amplitude = "2 kV"
+width = "500 ns"
+rise = "5 ns"
+fall = "5 ns"
+convention = "generator"
+"#;
+
+    #[test]
+    fn documented_schema_parses() {
+        let s = parse("t.toml", "t", FULL).unwrap();
+        assert_eq!(s.network.modes.len(), 2);
+        assert_eq!(s.plan.target_error, Some(0.01));
+        let p = s.pulse.unwrap().pulse;
+        assert!((p.amplitude - 2000.0).abs() < 1e-12);
+        assert!((p.width_50() - 500e-9).abs() < 1e-20);
+    }
+
+    #[test]
+    fn errors_name_key_and_line() {
+        let cases: &[(&str, &str, usize)] = &[
+            ("[network]\ntime_constants = [\"4.7 nf\"]\n", "network.time_constants[0]", 2),
+            ("[drive]\nkind = \"voltage\"\n", "network", 1),
+            (
+                "[network]\ntime_constants = [\"1 ms\"]\nnumerator = [1.0]\ndenominator = [1.0, 2.0]\n",
+                "network.numerator",
+                3,
+            ),
+            ("[network]\npoles = [\n \"-1+2j\",\n \"-1-3j\"]\n", "network.poles[0]", 3),
+            ("[network]\nnumerator = [1.0]\ndenominator = [0, 0.0]\n", "network.denominator", 3),
+            ("[network]\nnumerator = [1.0]\ndenominator = [1.0, nan]\n", "network.denominator[1]", 3),
+            ("[network]\nnumerator = [1.0]\ndenominator = [1.0, \"NaN\"]\n", "network.denominator[1]", 3),
+        ];
+        for (text, key, line) in cases {
+            let e = parse("bad.toml", "bad", text).unwrap_err();
+            assert_eq!(&e.key, key, "{e}");
+            assert_eq!(e.line, *line, "{e}");
+            assert!(e.to_string().starts_with(&format!("bad.toml:{line}:")));
+        }
+    }
+}
