@@ -30,7 +30,11 @@ pub struct IdealShape {
 /// Times to examine h on: geometric near the origin plus uniform over the span.
 fn shape_grid(net: &Network, span: f64) -> Vec<f64> {
     let fast = net.tau_fast();
-    let max_im = net.modes.iter().map(|m| m.pole.im.abs()).fold(0.0, f64::max);
+    let max_im = net
+        .modes
+        .iter()
+        .map(|m| m.pole.im.abs())
+        .fold(0.0, f64::max);
     let dt_osc = if max_im > 0.0 {
         2.0 * std::f64::consts::PI / max_im / 24.0
     } else {
@@ -108,10 +112,11 @@ impl IdealShape {
             peak = p2;
             t_peak = t2;
         }
-        // Refine the peak between the grid neighbours.
-        if let Ok(i) = grid.binary_search_by(|t| t.total_cmp(&t_peak)) {
-            let a = grid[i.saturating_sub(1)];
-            let b = grid[(i + 1).min(grid.len() - 1)];
+        // Refine the peak between its grid neighbours (t_peak may come from the first grid).
+        let i = grid.partition_point(|&t| t < t_peak).min(grid.len() - 1);
+        let a = grid[i.saturating_sub(1)];
+        let b = grid[(i + 1).min(grid.len() - 1)];
+        if b > a {
             let (t, v) = refine_max(&|t| h.at(t).abs(), a, b);
             if v > peak {
                 peak = v;
@@ -156,7 +161,10 @@ fn min_nonzero_freq(net: &Network) -> f64 {
 fn grid_peak(h: &FreeResponse, grid: &[f64]) -> (f64, f64) {
     grid.iter()
         .map(|&t| (h.at(t).abs(), t))
-        .fold((0.0, 0.0), |best, cur| if cur.0 > best.0 { cur } else { best })
+        .fold(
+            (0.0, 0.0),
+            |best, cur| if cur.0 > best.0 { cur } else { best },
+        )
 }
 
 /// What the relative figures are divided by.
@@ -357,25 +365,24 @@ impl Estimator {
         let c = pulse.centroid();
         let area = pulse.area();
         let y = self.modal.drive(&pulse.breakpoints()).after_end();
-        let err = |t: f64| (y.at(t) / area - self.h.at(t - c)) / self.normaliser;
-        // Uniform grid for the RMS (time average), plus geometric points near the end where
-        // the fast modes change quickly.
+        // e(t) = y(t)/area − h(t − c), merged mode by mode about the pulse end.
+        let shifted = self.h.delayed(c).reanchored(end);
+        let e = y.combine(
+            1.0 / (area * self.normaliser),
+            &shifted,
+            -1.0 / self.normaliser,
+        );
+        let err = |t: f64| e.at(t);
         let span = run - end;
+        let rms_rel = (e.integral_square(span) / span).sqrt();
+        // Uniform samples plus geometric points near the end, where the fast modes move.
         let n = window_points(&self.modal, span);
         let dt = span / (n - 1) as f64;
-        let yu = y.uniform(end, dt, n);
-        let hu = self.h.uniform(end - c, dt, n);
-        let eu: Vec<f64> = yu
-            .iter()
-            .zip(&hu)
-            .map(|(a, b)| (a / area - b) / self.normaliser)
-            .collect();
-        let sq: f64 = eu.windows(2).map(|w| (w[0] * w[0] + w[1] * w[1]) / 2.0).sum();
-        let rms_rel = (sq / (n - 1) as f64).sqrt();
+        let eu = e.uniform(end, dt, n);
         let mut best = (0.0, end);
-        for (k, e) in eu.iter().enumerate() {
-            if e.abs() > best.0 {
-                best = (e.abs(), end + k as f64 * dt);
+        for (k, v) in eu.iter().enumerate() {
+            if v.abs() > best.0 {
+                best = (v.abs(), end + k as f64 * dt);
             }
         }
         let fast = 1.0 / self.modal_fastest();
@@ -408,7 +415,10 @@ impl Estimator {
     }
 
     fn modal_fastest(&self) -> f64 {
-        self.h.frequencies().fold(0.0, f64::max).max(f64::MIN_POSITIVE)
+        self.h
+            .frequencies()
+            .fold(0.0, f64::max)
+            .max(f64::MIN_POSITIVE)
     }
 
     /// The full estimate for a pulse, over a run.
@@ -548,7 +558,12 @@ mod tests {
         let phi = z.acos();
         let wd = w0 * (1.0 - z * z).sqrt();
         let want = w0 / (1.0 - z * z).sqrt() * (-z * w0 * phi / wd).exp() * phi.sin();
-        assert!((shape.peak - want).abs() < 1e-9 * want, "{} {}", shape.peak, want);
+        assert!(
+            (shape.peak - want).abs() < 1e-9 * want,
+            "{} {}",
+            shape.peak,
+            want
+        );
         assert_eq!(e.normalised_by(), NormalisedBy::Peak);
     }
 }

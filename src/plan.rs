@@ -5,7 +5,7 @@ use crate::estimate::{ErrorEstimate, Estimator, IdealShape, NormalisedBy};
 use crate::network::Network;
 use crate::pulse::Trapezoid;
 use crate::scenario::{DriveKind, Metric, PlanSettings, Scenario};
-use crate::units::{Dim, eng, percent};
+use crate::units::{Dim, eng};
 
 /// The usual extra-low-voltage limit for a pulse generator's output: 60 V (the common touch-safe
 /// DC figure for safety extra-low voltage; recalled from memory of common practice, no source checked).
@@ -63,7 +63,10 @@ pub fn prepare(net: &Network, settings: &PlanSettings) -> Prepared {
                     eng(ts, Dim::Time)
                 ),
             ),
-            _ => (by_tau, format!("{k} × slowest time constant ({})", eng(slow, Dim::Time))),
+            _ => (
+                by_tau,
+                format!("{k} × slowest time constant ({})", eng(slow, Dim::Time)),
+            ),
         }
     } else {
         let (run, basis) = match tau_slow {
@@ -313,9 +316,9 @@ pub fn plan(sc: &Scenario) -> PlanOutcome {
             format!(
                 "no pulse meets the {} budget of {}: even {} wide gives {}; the rule-of-thumb pulse is shown instead",
                 s.metric.name(),
-                crate::units::budget(s.target_error.unwrap_or(0.0)),
+                crate::units::percent_unsigned(s.target_error.unwrap_or(0.0)),
                 eng(*width, Dim::Time),
-                percent(*value)
+                crate::units::percent_unsigned(*value)
             ),
         ));
     }
@@ -383,8 +386,8 @@ pub fn pulse_warnings(
                     "the {} error is {} against a budget of {}: the pulse is too wide (or its edges too slow) \
                      for the reading to be trusted to that level",
                     s.metric.name(),
-                    percent(value),
-                    crate::units::budget(budget)
+                    crate::units::percent_unsigned(value),
+                    crate::units::percent_unsigned(budget)
                 ),
             ));
         }
@@ -487,7 +490,10 @@ mod tests {
         };
         let x = width * 1000.0;
         let closed = 1.0 - (-(-x).exp_m1()) / x;
-        assert!((closed - 0.01).abs() < 1e-6, "x = {x}, closed form {closed}");
+        assert!(
+            (closed - 0.01).abs() < 1e-6,
+            "x = {x}, closed form {closed}"
+        );
         assert!(value <= 0.01);
         assert!(out.widening.unwrap() > 1.5);
     }

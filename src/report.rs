@@ -6,7 +6,7 @@ use crate::plan::{AssessOutcome, PlanOutcome, Prepared, Target, Warning};
 use crate::pulse::Trapezoid;
 use crate::response::Modal;
 use crate::scenario::Scenario;
-use crate::units::{Dim, eng, eng_number, percent};
+use crate::units::{Dim, eng, eng_number, percent, percent_unsigned};
 use serde_json::{Value, json};
 use std::fmt::Write as _;
 use std::io::Write as _;
@@ -397,7 +397,7 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
                 eng(*tau, Dim::Time),
                 percent(m.t0.rel),
                 percent(m.t0_aligned.rel),
-                percent(m.window.max_rel)
+                percent_unsigned(m.window.max_rel)
             );
         }
         let _ = writeln!(
@@ -410,9 +410,9 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
     let _ = writeln!(
         s,
         "  over the window     max {} (at {}), RMS {}   [y(t)/area vs h(t − centroid), end ≤ t ≤ run]",
-        percent(e.window.max_rel),
+        percent_unsigned(e.window.max_rel),
         eng(e.window.t_max, Dim::Time),
-        percent(e.window.rms_rel)
+        percent_unsigned(e.window.rms_rel)
     );
 }
 
@@ -437,6 +437,7 @@ fn cursors_text(s: &mut String, cs: &[Cursor]) {
             value_text(c.predicted - c.ideal_aligned)
         );
     }
+    let _ = writeln!(s);
 }
 
 fn warnings_text(s: &mut String, ws: &[Warning]) {
@@ -479,7 +480,7 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
         "  errors: raw at 0⁺ {}, aligned {}, window max {}",
         percent(out.rule_estimate.t0.rel),
         percent(out.rule_estimate.t0_aligned.rel),
-        percent(out.rule_estimate.window.max_rel)
+        percent_unsigned(out.rule_estimate.window.max_rel)
     );
     let _ = writeln!(s);
     match &out.target {
@@ -487,10 +488,10 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
             let _ = writeln!(
                 s,
                 "Error budget: {} on the {} error → widest width {} (error {}), {:.2}× the rule-of-thumb width",
-                crate::units::budget(sc.plan.target_error.unwrap_or(0.0)),
+                crate::units::percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
                 sc.plan.metric.name(),
                 eng(*width, Dim::Time),
-                percent(*value),
+                percent_unsigned(*value),
                 out.widening.unwrap_or(1.0)
             );
             let _ = writeln!(s);

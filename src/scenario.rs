@@ -214,7 +214,12 @@ impl Reader<'_> {
         self.text[..end].bytes().filter(|&b| b == b'\n').count() + 1
     }
 
-    fn err(&self, span: Option<&Range<usize>>, key: &str, message: impl Into<String>) -> ScenarioError {
+    fn err(
+        &self,
+        span: Option<&Range<usize>>,
+        key: &str,
+        message: impl Into<String>,
+    ) -> ScenarioError {
         ScenarioError {
             file: self.file.to_string(),
             line: span.map_or(1, |s| self.line_of(s)),
@@ -227,9 +232,8 @@ impl Reader<'_> {
         let v = match q.get_ref() {
             Qty::Int(i) => *i as f64,
             Qty::Float(f) => *f,
-            Qty::Text(t) => {
-                units::parse_quantity(t, dim).map_err(|e| self.err(Some(&q.span()), key, e.to_string()))?
-            }
+            Qty::Text(t) => units::parse_quantity(t, dim)
+                .map_err(|e| self.err(Some(&q.span()), key, e.to_string()))?,
         };
         if !v.is_finite() {
             return Err(self.err(Some(&q.span()), key, format!("{v} is not a finite number")));
@@ -340,7 +344,10 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
 fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, ScenarioError> {
     let n = net.get_ref();
     let forms: Vec<(&str, Range<usize>)> = [
-        ("time_constants", n.time_constants.as_ref().map(|l| l.span())),
+        (
+            "time_constants",
+            n.time_constants.as_ref().map(|l| l.span()),
+        ),
         (
             "numerator/denominator",
             n.numerator
@@ -400,10 +407,18 @@ fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, S
     }
     if n.numerator.is_some() || n.denominator.is_some() {
         let num_l = n.numerator.as_ref().ok_or_else(|| {
-            rd.err(Some(&net.span()), "network.numerator", "denominator given without numerator")
+            rd.err(
+                Some(&net.span()),
+                "network.numerator",
+                "denominator given without numerator",
+            )
         })?;
         let den_l = n.denominator.as_ref().ok_or_else(|| {
-            rd.err(Some(&num_l.span()), "network.denominator", "numerator given without denominator")
+            rd.err(
+                Some(&num_l.span()),
+                "network.denominator",
+                "numerator given without denominator",
+            )
         })?;
         let numerator = rd.list(num_l, "network.numerator", Dim::Number)?;
         let denominator = rd.list(den_l, "network.denominator", Dim::Number)?;
@@ -434,7 +449,11 @@ fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, S
         });
     }
     let poles_l = n.poles.as_ref().ok_or_else(|| {
-        rd.err(Some(&net.span()), "network.poles", "zeros/gain given without poles")
+        rd.err(
+            Some(&net.span()),
+            "network.poles",
+            "zeros/gain given without poles",
+        )
     })?;
     let poles = rd.complex_list(poles_l, "network.poles")?;
     if poles.is_empty() {
@@ -450,7 +469,11 @@ fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, S
     };
     if gain == 0.0 {
         let span = n.gain.as_ref().map(|g| g.span());
-        return Err(rd.err(span.as_ref(), "network.gain", "is zero: the network has no response"));
+        return Err(rd.err(
+            span.as_ref(),
+            "network.gain",
+            "is zero: the network has no response",
+        ));
     }
     for (key, list, values) in [
         ("network.poles", poles_l, &poles),
@@ -501,10 +524,9 @@ fn drive(rd: &Reader, d: Option<&Spanned<RawDrive>>) -> Result<(DriveKind, f64),
         None => 1.0,
         Some(q) => {
             let stripped = match q.get_ref() {
-                Qty::Text(t) => Spanned::new(
-                    q.span(),
-                    Qty::Text(strip_area_unit(t, kind).to_string()),
-                ),
+                Qty::Text(t) => {
+                    Spanned::new(q.span(), Qty::Text(strip_area_unit(t, kind).to_string()))
+                }
                 other => Spanned::new(q.span(), other.clone()),
             };
             rd.positive(&stripped, "drive.area", Dim::Number)?
@@ -534,7 +556,10 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
             return Err(rd.err(
                 Some(&q.span()),
                 "plan.target_error",
-                format!("{} is not a useful error budget; give e.g. \"1 %\"", units::percent(v)),
+                format!(
+                    "{} is not a useful error budget; give e.g. \"1 %\"",
+                    units::percent(v)
+                ),
             ));
         }
         s.target_error = Some(v);
@@ -548,7 +573,9 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
                 return Err(rd.err(
                     Some(&m.span()),
                     "plan.metric",
-                    format!("\"{other}\" is not a metric; use \"t0\", \"t0-aligned\" or \"window\""),
+                    format!(
+                        "\"{other}\" is not a metric; use \"t0\", \"t0-aligned\" or \"window\""
+                    ),
                 ));
             }
         };
@@ -572,14 +599,21 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
     Ok(s)
 }
 
-fn given_pulse(rd: &Reader, p: &Spanned<RawPulse>, kind: DriveKind) -> Result<GivenPulse, ScenarioError> {
+fn given_pulse(
+    rd: &Reader,
+    p: &Spanned<RawPulse>,
+    kind: DriveKind,
+) -> Result<GivenPulse, ScenarioError> {
     let raw = p.get_ref();
     let need = |q: &Option<SQty>, key: &str| {
-        q.clone().ok_or_else(|| {
-            rd.err(Some(&p.span()), key, "is required in [pulse]")
-        })
+        q.clone()
+            .ok_or_else(|| rd.err(Some(&p.span()), key, "is required in [pulse]"))
     };
-    let amplitude = rd.number(&need(&raw.amplitude, "pulse.amplitude")?, "pulse.amplitude", kind.dim())?;
+    let amplitude = rd.number(
+        &need(&raw.amplitude, "pulse.amplitude")?,
+        "pulse.amplitude",
+        kind.dim(),
+    )?;
     if amplitude == 0.0 {
         let span = raw.amplitude.as_ref().map(|q| q.span());
         return Err(rd.err(span.as_ref(), "pulse.amplitude", "is zero: no pulse"));
@@ -665,17 +699,37 @@ convention = "generator"
     #[test]
     fn errors_name_key_and_line() {
         let cases: &[(&str, &str, usize)] = &[
-            ("[network]\ntime_constants = [\"4.7 nf\"]\n", "network.time_constants[0]", 2),
+            (
+                "[network]\ntime_constants = [\"4.7 nf\"]\n",
+                "network.time_constants[0]",
+                2,
+            ),
             ("[drive]\nkind = \"voltage\"\n", "network", 1),
             (
                 "[network]\ntime_constants = [\"1 ms\"]\nnumerator = [1.0]\ndenominator = [1.0, 2.0]\n",
                 "network.numerator",
                 3,
             ),
-            ("[network]\npoles = [\n \"-1+2j\",\n \"-1-3j\"]\n", "network.poles[0]", 3),
-            ("[network]\nnumerator = [1.0]\ndenominator = [0, 0.0]\n", "network.denominator", 3),
-            ("[network]\nnumerator = [1.0]\ndenominator = [1.0, nan]\n", "network.denominator[1]", 3),
-            ("[network]\nnumerator = [1.0]\ndenominator = [1.0, \"NaN\"]\n", "network.denominator[1]", 3),
+            (
+                "[network]\npoles = [\n \"-1+2j\",\n \"-1-3j\"]\n",
+                "network.poles[0]",
+                3,
+            ),
+            (
+                "[network]\nnumerator = [1.0]\ndenominator = [0, 0.0]\n",
+                "network.denominator",
+                3,
+            ),
+            (
+                "[network]\nnumerator = [1.0]\ndenominator = [1.0, nan]\n",
+                "network.denominator[1]",
+                3,
+            ),
+            (
+                "[network]\nnumerator = [1.0]\ndenominator = [1.0, \"NaN\"]\n",
+                "network.denominator[1]",
+                3,
+            ),
         ];
         for (text, key, line) in cases {
             let e = parse("bad.toml", "bad", text).unwrap_err();

@@ -338,9 +338,13 @@ pub fn percent(fraction: f64) -> String {
     format!("{text} %")
 }
 
-/// Format an unsigned budget fraction: 0.01 → "1 %".
-pub fn budget(fraction: f64) -> String {
-    let text = format!("{:.6}", fraction * 100.0);
+/// Format a magnitude (budget, RMS) as a percentage without sign: 0.01 → "1 %".
+pub fn percent_unsigned(fraction: f64) -> String {
+    let p = fraction.abs() * 100.0;
+    if p != 0.0 && p < 0.01 {
+        return format!("{p:.3e} %");
+    }
+    let text = format!("{p:.4}");
     let text = text.trim_end_matches('0').trim_end_matches('.');
     format!("{text} %")
 }

@@ -47,6 +47,11 @@ pub enum NetworkError {
         "every pole is at s = 0 (a pure integrator): there is no time scale to size a pulse against"
     )]
     NoTimeScale,
+    /// Every residue is zero: h(t) has no modes (a pole–zero cancellation, for instance).
+    #[error(
+        "every residue is zero: h(t) has no decaying part to measure (does a zero cancel each pole?)"
+    )]
+    NoModes,
     /// A complex root without its conjugate.
     #[error("complex {what} {value} has no conjugate partner; a real circuit needs both")]
     NotConjugate {
@@ -157,6 +162,13 @@ impl Network {
         if net.modes.iter().all(|m| m.pole.norm() == 0.0) {
             return Err(NetworkError::NoTimeScale);
         }
+        if net
+            .modes
+            .iter()
+            .all(|m| m.residues.iter().all(|r| r.norm() == 0.0))
+        {
+            return Err(NetworkError::NoModes);
+        }
         Ok(net)
     }
 
@@ -223,7 +235,9 @@ fn check_finite(values: &[f64], what: &str) -> Result<(), NetworkError> {
     if values.iter().all(|v| v.is_finite()) {
         Ok(())
     } else {
-        Err(NetworkError::Invalid(format!("{what} contains a non-finite number")))
+        Err(NetworkError::Invalid(format!(
+            "{what} contains a non-finite number"
+        )))
     }
 }
 
@@ -275,9 +289,7 @@ fn from_polynomials(numerator: &[f64], denominator: &[f64]) -> Result<Network, N
     let h0_ivt = if n >= 1 { remainder[0] / den[0] } else { 0.0 };
     let scale = (den[n] / den[0]).abs().powf(1.0 / n.max(1) as f64);
     let groups = poly::cluster(&poly::roots(&den), scale);
-    let residues = partial::residues(&groups, den[0], &|p, count| {
-        poly::taylor_at(&num, p, count)
-    });
+    let residues = partial::residues(&groups, den[0], &|p, count| poly::taylor_at(&num, p, count));
     let zeros = if num.len() > 1 {
         poly::cluster(&poly::roots(&num), 1.0)
             .into_iter()
@@ -396,11 +408,7 @@ fn build_modes(groups: &[(Complex64, usize)], residues: Vec<Vec<Complex64>>) -> 
             }
         }
     }
-    let uppers: Vec<Mode> = modes
-        .iter()
-        .filter(|m| m.pole.im > 0.0)
-        .cloned()
-        .collect();
+    let uppers: Vec<Mode> = modes.iter().filter(|m| m.pole.im > 0.0).cloned().collect();
     for m in modes.iter_mut().filter(|m| m.pole.im < 0.0) {
         if let Some(u) = uppers.iter().find(|u| u.pole == m.pole.conj()) {
             m.residues = u.residues.iter().map(|r| r.conj()).collect();

@@ -5,7 +5,10 @@ use num_complex::Complex64;
 
 /// Drop leading zero coefficients (descending order). An all-zero polynomial becomes empty.
 pub fn trim(coeffs: &[f64]) -> Vec<f64> {
-    let first = coeffs.iter().position(|&c| c != 0.0).unwrap_or(coeffs.len());
+    let first = coeffs
+        .iter()
+        .position(|&c| c != 0.0)
+        .unwrap_or(coeffs.len());
     coeffs[first..].to_vec()
 }
 
@@ -97,7 +100,11 @@ pub fn roots(coeffs: &[f64]) -> Vec<Complex64> {
     }
     // Scale s = σ·w so that the monic polynomial in w has |constant| = 1.
     let sigma = (c[n] / c[0]).abs().powf(1.0 / n as f64);
-    let sigma = if sigma.is_finite() && sigma > 0.0 { sigma } else { 1.0 };
+    let sigma = if sigma.is_finite() && sigma > 0.0 {
+        sigma
+    } else {
+        1.0
+    };
     let monic: Vec<f64> = (0..=n)
         .map(|k| c[k] / c[0] / sigma.powi(k as i32))
         .collect();

@@ -175,6 +175,9 @@ def check_scenario(C, binary, path):
             FLOOR_MODAL * M * float(net.tau_fast))
     # reference: initial-value theorem lim s->inf s(H(s)-D), exact from the coefficients
     C.close("%s: network.h0_plus" % name, jn.get("h0_plus"), h0, REL_CORE, FLOOR_MODAL * M)
+    if "peak" in jn:
+        # reference: peak |h(t)|, t > 0: grid + mpmath.findroot on h'(t) = 0 (40 digits)
+        C.close("%s: network.peak" % name, jn.get("peak"), R.peak_abs_h(net), REL_CORE, FLOOR_MODAL * M)
     C.close("%s: network.tau_fast" % name, jn.get("tau_fast"), net.tau_fast, REL_CORE)
     C.close("%s: network.tau_slow" % name, jn.get("tau_slow"), net.tau_slow, REL_CORE)
     C.check("%s: network.stable" % name, jn.get("stable") is True, "tool %r" % jn.get("stable"))
@@ -231,6 +234,15 @@ def check_scenario(C, binary, path):
     # ---- error metrics ----
     C.check("%s: error.normalised_by" % name, je.get("normalised_by") == norm_kind,
             "tool %r ref %r (h0_plus ref %s)" % (je.get("normalised_by"), norm_kind, _fmt(h0)))
+    if "normaliser" in je:
+        # reference: |h(0+)| (initial-value theorem) or peak |h| by dense grid + bounded refinement
+        C.close("%s: error.normaliser" % name, je.get("normaliser"), norm, REL_CORE, FLOOR_MODAL * M)
+    warns = js.get("warnings")
+    C.check("%s: warnings is a list of {code, message}" % name,
+            isinstance(warns, list) and all(isinstance(w, dict) and isinstance(w.get("code"), str)
+                                            and isinstance(w.get("message"), str) for w in warns),
+            "got %r" % (warns,) if not isinstance(warns, list) else
+            "codes %s" % [w.get("code") for w in warns if isinstance(w, dict)])
     # reference: closed-form convolution of each mode with the ramp decomposition of the
     # trapezoid, 100 digits (cross-checked against mpmath.quad moments at 60 digits)
     y_end = R.y_exact(net, pulse, pulse.end) / pulse.area
@@ -299,7 +311,7 @@ def check_csv(C, binary, path, name, net, pulse, M, norm):
     # reference: mpmath h(t) (sum of r_k t^(k-1)/(k-1)! e^{pt}) and 100-digit closed-form y(t)
     worst = {"ideal": (0.0, ""), "predicted": (0.0, ""), "error": (0.0, ""), "consistency": (0.0, "")}
     for i in idx:
-        ti, hi, pi, ei = rows[i]
+        ti, hi, pi, ei = rows[i, :4]
         h_ref = net.h_mp(ti)
         y_ref = R.y_exact(net, pulse, ti) / pulse.area
         for key, got, ref in (("ideal", hi, h_ref), ("predicted", pi, y_ref), ("error", ei, y_ref - h_ref)):
