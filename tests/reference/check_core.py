@@ -37,6 +37,7 @@ REL_CORE = 1e-7        # poles, residues, D, h(0+), t0 readings/ideals (brief: 1
 REL_PULSE = 1e-9       # plain arithmetic on the pulse parameters
 FLOOR_MODAL = 1e-12    # abs floor, as a fraction of the modal magnitude M (double-precision cancellation floor)
 REL_WINDOW = 1e-4      # window max/rms: the tool may sample e(t) on a grid; reference is refined to ~1e-10
+REL_RESPONSE = 1e-9    # h(t), y(t)/area on the CSV grid: the exact-response target (~1e-9 relative)
 REL_SCIPY = 1e-9       # scipy.signal.residue in float64 (observed <= 1e-14 on these scenarios)
 
 
@@ -183,7 +184,10 @@ def check_scenario(C, binary, path):
     C.check("%s: network.stable" % name, jn.get("stable") is True, "tool %r" % jn.get("stable"))
 
     # ---- scipy.signal.residue for simple-pole networks ----
-    if all(md.m == 1 for md in net.modes) and tmodes:
+    # scipy.signal.residue works on expanded polynomials, whose coefficients lose the poles of a
+    # high-order network (the reason pulseplan never expands them); the mpmath checks above
+    # cover every order, so scipy is consulted only up to order 12.
+    if all(md.m == 1 for md in net.modes) and tmodes and len(net.modes) <= 12:
         # reference: scipy.signal.residue on the frequency-scaled polynomials (s = w0*sigma)
         mags = [abs(complex(md.pole)) for md in net.modes]
         w0 = float(np.exp(np.mean(np.log(mags))))
@@ -316,7 +320,7 @@ def check_csv(C, binary, path, name, net, pulse, M, norm):
         y_ref = R.y_exact(net, pulse, ti) / pulse.area
         for key, got, ref in (("ideal", hi, h_ref), ("predicted", pi, y_ref), ("error", ei, y_ref - h_ref)):
             e = abs(got - float(ref))
-            q = e / (REL_CORE * abs(float(ref)) + FLOOR_MODAL * M)   # <= 1 passes
+            q = e / (REL_RESPONSE * abs(float(ref)) + FLOOR_MODAL * M)   # <= 1 passes
             if q > worst[key][0]:
                 worst[key] = (q, "t=%.6g tool %.15g ref %.15g" % (ti, got, float(ref)))
         q = abs(ei - (pi - hi)) / (1e-12 * (abs(pi) + abs(hi)) + FLOOR_MODAL * M)
