@@ -47,7 +47,7 @@ fn shape_grid(net: &Network, span: f64) -> Vec<f64> {
     let start = (fast * 1e-4).min(span / 10.0);
     let n_geo = 3000;
     let ratio = (span / start).powf(1.0 / n_geo as f64);
-    t.extend((0..=n_geo).map(|k| start * ratio.powi(k as i32)));
+    t.extend((0..=n_geo).map(|k| start * ratio.powi(k)));
     t.sort_by(f64::total_cmp);
     t.dedup();
     t

@@ -191,6 +191,13 @@ pub enum Target {
         /// Metric value there (fraction).
         value: f64,
     },
+    /// The budget allows a wider pulse than τ_fast / min_width_ratio; the width is capped there.
+    Capped {
+        /// Planned (capped) width, s.
+        width: f64,
+        /// Metric value there.
+        value: f64,
+    },
     /// Even the narrowest width tried misses the budget.
     Unreachable {
         /// Narrowest width tried, s.
@@ -201,7 +208,8 @@ pub enum Target {
 }
 
 /// Search for the widest pulse whose metric stays within the budget, with all narrower widths
-/// also within it (the first crossing, scanning up in steps of 2^(1/4), then bisection on log width).
+/// also within it (the first crossing, scanning up in steps of 2^(1/4), then bisection on log
+/// width), never wider than τ_fast / min_width_ratio.
 pub fn widest_within(
     est: &Estimator,
     prep: &Prepared,
@@ -214,18 +222,24 @@ pub fn widest_within(
         est.metric(&p, settings.metric, run)
     };
     let step = 2f64.powf(0.25);
-    let start = prep.tau_fast / settings.width_ratio;
     let floor = prep.tau_fast * 1e-9;
-    let ceiling = 10.0 * prep.tau_slow.unwrap_or(prep.tau_fast).max(prep.tau_fast);
+    let ceiling = prep.tau_fast / settings.min_width_ratio;
+    let start = (prep.tau_fast / settings.width_ratio).min(ceiling);
     let (mut lo, mut hi);
     if f(start) <= budget {
         lo = start;
         loop {
             let next = lo * step;
             if next > ceiling {
-                return Target::Met {
-                    width: lo,
-                    value: f(lo),
+                return if f(ceiling) <= budget {
+                    Target::Capped {
+                        width: ceiling,
+                        value: f(ceiling),
+                    }
+                } else {
+                    // Bisect between lo and the cap.
+                    hi = ceiling;
+                    break;
                 };
             }
             if f(next) > budget {
@@ -298,7 +312,7 @@ pub fn plan(sc: &Scenario) -> PlanOutcome {
         .target_error
         .map(|budget| widest_within(est, &prep, s, budget));
     let (pulse, widening) = match target {
-        Some(Target::Met { width, .. }) => (
+        Some(Target::Met { width, .. } | Target::Capped { width, .. }) => (
             tied_pulse(sc.area, width, s.edge_ratio),
             Some(width / rule_width),
         ),
@@ -392,13 +406,14 @@ pub fn pulse_warnings(
             ));
         }
     }
-    if width > prep.tau_fast / 10.0 {
+    if width > prep.tau_fast / s.min_width_ratio * (1.0 + 1e-9) {
         out.push(warn(
             "pulse-wide-for-network",
             format!(
-                "the 50 % width {} exceeds 1/10 of the fastest time scale ({}): the response will \
+                "the 50 % width {} exceeds 1/{} of the fastest time scale ({}): the response will \
                  look like a pulse response, not like h(t)",
                 eng(width, Dim::Time),
+                s.min_width_ratio,
                 eng(prep.tau_fast, Dim::Time)
             ),
         ));

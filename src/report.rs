@@ -180,6 +180,9 @@ pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
         Some(Target::Met { width, value }) => {
             json!({"met": true, "width": width, "value": value, "widening": out.widening})
         }
+        Some(Target::Capped { width, value }) => {
+            json!({"met": true, "capped": true, "width": width, "value": value, "widening": out.widening})
+        }
         Some(Target::Unreachable { width, value }) => {
             json!({"met": false, "narrowest_tried": width, "value": value})
         }
@@ -236,6 +239,16 @@ pub fn with_unit(v: f64, unit: &str) -> String {
     format!("{}{unit}", eng_number(v, 4))
 }
 
+/// A dimensionless number with at most six significant digits and no prefix.
+fn plain(v: f64) -> String {
+    if v != 0.0 && (v.abs() < 1e-3 || v.abs() >= 1e6) {
+        format!("{v:.5e}")
+    } else {
+        let t = format!("{v:.6}");
+        t.trim_end_matches('0').trim_end_matches('.').to_string()
+    }
+}
+
 fn value_text(v: f64) -> String {
     eng_number(v, 5).trim_end().to_string()
 }
@@ -280,7 +293,26 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
         let _ = writeln!(s, "  zeros [rad/s]: {}", zs.join(", "));
     }
     if net.residues_known {
-        let _ = writeln!(s, "  direct term D          {}", value_text(net.direct));
+        if net.direct != 0.0 {
+            let _ = writeln!(
+                s,
+                "  direct term D          {}   (h holds D·δ(t): during the pulse the output carries D × the input)",
+                plain(net.direct)
+            );
+        } else {
+            let _ = writeln!(s, "  direct term D          0");
+        }
+        if net.is_improper() {
+            let _ = writeln!(
+                s,
+                "  improper part          {}   (coefficients of s, s², …: δ′, δ″ terms, left out)",
+                net.improper
+                    .iter()
+                    .map(|&q| plain(q))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            );
+        }
         let _ = writeln!(
             s,
             "  h(0⁺)                  {} /s from the modes, {} /s by the initial-value theorem",
@@ -490,6 +522,21 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
                 "Error budget: {} on the {} error → widest width {} (error {}), {:.2}× the rule-of-thumb width",
                 crate::units::percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
                 sc.plan.metric.name(),
+                eng(*width, Dim::Time),
+                percent_unsigned(*value),
+                out.widening.unwrap_or(1.0)
+            );
+            let _ = writeln!(s);
+            pulse_text(&mut s, "Recommended pulse", &out.pulse, out.prep.run, sc);
+        }
+        Some(Target::Capped { width, value }) => {
+            let _ = writeln!(
+                s,
+                "Error budget: {} on the {} error would allow a wider pulse; capped at τ_fast/{} = {} \
+                 (error {}), {:.2}× the rule-of-thumb width",
+                percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
+                sc.plan.metric.name(),
+                sc.plan.min_width_ratio,
                 eng(*width, Dim::Time),
                 percent_unsigned(*value),
                 out.widening.unwrap_or(1.0)

@@ -57,6 +57,7 @@ pub(crate) fn dd_table(z: C, amax: usize) -> Vec<[C; 3]> {
     }
 }
 
+#[allow(clippy::needless_range_loop)] // index arithmetic mirrors the series formula
 fn series_table(z: C, amax: usize) -> Vec<[C; 3]> {
     let ez = z.exp();
     let mut t = vec![[ZERO; 3]; amax + 1];
@@ -92,6 +93,7 @@ fn recurrence_table(z: C, amax: usize) -> Vec<[C; 3]> {
     t
 }
 
+#[allow(clippy::needless_range_loop)] // triangular matrix products read best with indices
 fn squaring_table(z: C, amax: usize) -> Vec<[C; 3]> {
     let k = (z.norm() / SERIES_RADIUS).log2().ceil().max(0.0) as i32;
     let small = z / 2f64.powi(k);
@@ -379,6 +381,7 @@ impl FreeResponse {
     }
 
     /// The same function written about a later anchor (exact polynomial re-expansion).
+    #[allow(clippy::needless_range_loop)] // binomial expansion by index
     pub fn reanchored(&self, new_anchor: f64) -> FreeResponse {
         let delta = new_anchor - self.anchor;
         let terms = self

@@ -84,6 +84,8 @@ pub struct PlanSettings {
     pub width_ratio: f64,
     /// Width / 10–90 % edge.
     pub edge_ratio: f64,
+    /// The planned width never exceeds τ_fast / this (and a wider pulse is warned about).
+    pub min_width_ratio: f64,
     /// Run length in slowest time constants.
     pub settle_multiple: f64,
 }
@@ -91,12 +93,13 @@ pub struct PlanSettings {
 impl Default for PlanSettings {
     fn default() -> Self {
         // The trade's rule of thumb (common practice, no source): width ≈ τ_fast/100,
-        // edges ≈ width/100, run ≥ 5 τ_slow.
+        // edges ≈ width/100, run ≥ 5 τ_slow, and never wider than τ_fast/10.
         PlanSettings {
             target_error: None,
             metric: Metric::T0,
             width_ratio: 100.0,
             edge_ratio: 100.0,
+            min_width_ratio: 10.0,
             settle_multiple: 5.0,
         }
     }
@@ -188,6 +191,7 @@ struct RawPlan {
     metric: Option<Spanned<String>>,
     width_ratio: Option<SQty>,
     edge_ratio: Option<SQty>,
+    min_width_ratio: Option<SQty>,
     settle_multiple: Option<SQty>,
 }
 
@@ -582,6 +586,9 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
     }
     if let Some(q) = &p.width_ratio {
         s.width_ratio = rd.positive(q, "plan.width_ratio", Dim::Number)?;
+    }
+    if let Some(q) = &p.min_width_ratio {
+        s.min_width_ratio = rd.positive(q, "plan.min_width_ratio", Dim::Number)?;
     }
     if let Some(q) = &p.edge_ratio {
         s.edge_ratio = rd.positive(q, "plan.edge_ratio", Dim::Number)?;

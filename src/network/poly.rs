@@ -143,7 +143,7 @@ fn polish(c: &[f64], start: Complex64) -> Complex64 {
         let step = eval(c, z) / d;
         let cand = z - step;
         let val = eval(c, cand).norm();
-        if !(val < best) {
+        if val.partial_cmp(&best) != Some(std::cmp::Ordering::Less) {
             break;
         }
         best = val;

@@ -42,7 +42,8 @@ REL_SCIPY = 1e-9       # scipy.signal.residue in float64 (observed <= 1e-14 on t
 
 
 class Checker:
-    def __init__(self, verbose=False):
+    def __init__(self, verbose=False, quiet=False):
+        self.quiet = quiet
         self.passed = 0
         self.failed = 0
         self.verbose = verbose
@@ -54,7 +55,8 @@ class Checker:
         else:
             self.failed += 1
             self.failures.append("%s: %s" % (name, detail))
-        print("%s %s%s" % ("PASS" if ok else "FAIL", name, (" -- " + detail) if detail else ""), flush=True)
+        if not (ok and self.quiet):
+            print("%s %s%s" % ("PASS" if ok else "FAIL", name, (" -- " + detail) if detail else ""), flush=True)
         return ok
 
     def close(self, name, got, ref, rtol, atol=0.0):
@@ -478,6 +480,7 @@ def main():
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--only", help="run only scenarios whose name contains this (skips handbook/malformed unless it matches them)")
     ap.add_argument("-v", "--verbose", action="store_true")
+    ap.add_argument("-q", "--quiet", action="store_true", help="print failures and the summary only")
     args = ap.parse_args()
 
     binary = Path(os.environ.get("PULSEPLAN_BIN") or (ROOT / "target" / "release" / "pulseplan"))
@@ -486,7 +489,7 @@ def main():
               "or set PULSEPLAN_BIN" % (binary, ROOT), file=sys.stderr)
         sys.exit(2)
 
-    C = Checker(args.verbose)
+    C = Checker(args.verbose, args.quiet)
     for path in sorted((HERE / "scenarios").glob("*.toml")):
         if args.only and args.only not in path.stem:
             continue
