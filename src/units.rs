@@ -275,6 +275,9 @@ pub fn eng_number(value: f64, sig: usize) -> String {
     if !value.is_finite() {
         return format!("{value} ");
     }
+    if value.abs() < 1e-15 || value.abs() >= 1e15 {
+        return format!("{:.prec$e} ", value, prec = sig.saturating_sub(1));
+    }
     let exp3 = ((value.abs().log10() / 3.0).floor() as i32).clamp(-5, 4);
     // Rounding may carry into the next prefix (999.96 → 1000): redo with the carried exponent.
     let render = |e3: i32| {
@@ -430,5 +433,6 @@ mod tests {
         assert_eq!(eng(999.99, Dim::Number), "1 k");
         assert_eq!(eng(-1.234567e-3, Dim::Time), "-1.235 ms");
         assert_eq!(percent(0.01), "+1.0000 %");
+        assert_eq!(eng(2.5e-18, Dim::Time), "2.500e-18 s");
     }
 }

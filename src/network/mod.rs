@@ -112,6 +112,8 @@ pub enum Form {
     Polynomial,
     /// `poles`/`zeros`/`gain`.
     ZeroPoleGain,
+    /// A netlist (through a state space).
+    Netlist,
 }
 
 impl Form {
@@ -121,6 +123,7 @@ impl Form {
             Form::TimeConstants => "time constants",
             Form::Polynomial => "transfer polynomials",
             Form::ZeroPoleGain => "poles, zeros and gain",
+            Form::Netlist => "netlist",
         }
     }
 }
