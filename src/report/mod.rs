@@ -1,0 +1,45 @@
+//! Reports: the text report, the JSON object, the response CSV, and atomic file writes.
+//! Each format has its own submodule; they share the cursor readings defined here.
+
+mod csv_out;
+mod json;
+mod text;
+
+pub use csv_out::{response_rows, write_atomic, write_response_csv};
+pub use json::{assess_json, error_json, network_json, plan_json, pulse_json};
+pub use text::{assess_text, plan_text, with_unit};
+
+use crate::network::Network;
+use crate::pulse::Trapezoid;
+use crate::response::Modal;
+
+/// One cursor reading: ideal and predicted values at a chosen instant.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Cursor {
+    /// Time, s.
+    pub t: f64,
+    /// Ideal h(t).
+    pub ideal: f64,
+    /// h(t − centroid), the ideal the reading stands for once the pulse delay is allowed for.
+    pub ideal_aligned: f64,
+    /// Predicted y(t)/area.
+    pub predicted: f64,
+}
+
+/// Read cursors on the predicted and ideal responses.
+pub fn cursors(net: &Network, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
+    let modal = Modal::new(net);
+    let h = modal.impulse();
+    let driven = modal.drive(&pulse.breakpoints());
+    let c = pulse.centroid();
+    let area = pulse.area();
+    times
+        .iter()
+        .map(|&t| Cursor {
+            t,
+            ideal: if t > 0.0 { h.at(t) } else { 0.0 },
+            ideal_aligned: if t > c { h.at(t - c) } else { 0.0 },
+            predicted: driven.at(t) / area,
+        })
+        .collect()
+}
