@@ -4,8 +4,10 @@
 //! Flow, one way: [`scenario`] (TOML) → [`network`] (modes) → [`plan`] (pulse) →
 //! [`response`] / [`estimate`] (exact responses and errors) → [`report`] (text, JSON, CSV).
 
+pub mod bench;
 pub mod cli;
 pub mod estimate;
+pub mod netlist;
 pub mod network;
 pub mod plan;
 pub mod pulse;

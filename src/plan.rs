@@ -1,6 +1,7 @@
 //! Choosing the pulse: the rule of thumb, the widest pulse within an error budget, the run
 //! length, and the warnings a pulse deserves.
 
+use crate::bench::{BenchPlan, practical};
 use crate::estimate::{ErrorEstimate, Estimator, IdealShape, NormalisedBy};
 use crate::network::Network;
 use crate::pulse::Trapezoid;
@@ -27,8 +28,14 @@ fn warn(code: &'static str, message: String) -> Warning {
 /// A network prepared for planning: its ideal shape, time scales and the exact estimator.
 #[derive(Debug, Clone)]
 pub struct Prepared {
-    /// Fastest time scale 1/max|p|, s.
+    /// Fastest time scale 1/max|p| over all modes, s.
     pub tau_fast: f64,
+    /// Fastest time scale over the significant modes, s: what the pulse is sized against.
+    pub tau_plan: f64,
+    /// Each mode's share of the summed dominance (aligned with `Network::modes`).
+    pub shares: Vec<f64>,
+    /// Whether each mode is significant (share ≥ the threshold).
+    pub significant: Vec<bool>,
     /// Slowest decay 1/min|Re p| over decaying modes, s.
     pub tau_slow: Option<f64>,
     /// Ideal response shape (peak, settling).
@@ -50,6 +57,35 @@ pub fn prepare(net: &Network, settings: &PlanSettings) -> Prepared {
     let estimator = Estimator::new(net, &shape);
     let tau_fast = net.tau_fast();
     let tau_slow = net.tau_slow();
+    let dominance: Vec<f64> = net.modes.iter().map(|m| m.dominance()).collect();
+    let total: f64 = dominance.iter().filter(|d| d.is_finite()).sum();
+    let shares: Vec<f64> = dominance
+        .iter()
+        .map(|&d| {
+            if d.is_finite() && total > 0.0 {
+                d / total
+            } else {
+                1.0
+            }
+        })
+        .collect();
+    let top = shares.iter().copied().fold(0.0, f64::max);
+    let significant: Vec<bool> = shares
+        .iter()
+        .map(|&s| !net.residues_known || s >= settings.significance || s == top)
+        .collect();
+    let fastest_significant = net
+        .modes
+        .iter()
+        .zip(&significant)
+        .filter(|(_, s)| **s)
+        .map(|(m, _)| m.natural_frequency())
+        .fold(0.0, f64::max);
+    let tau_plan = if fastest_significant > 0.0 {
+        1.0 / fastest_significant
+    } else {
+        tau_fast
+    };
     let mut warnings = Vec::new();
     let k = settings.settle_multiple;
     let (run, run_basis) = if net.stable() {
@@ -173,6 +209,9 @@ pub fn prepare(net: &Network, settings: &PlanSettings) -> Prepared {
     }
     Prepared {
         tau_fast,
+        tau_plan,
+        shares,
+        significant,
         tau_slow,
         shape,
         run,
@@ -241,9 +280,9 @@ pub fn widest_within(
         est.metric(&p, settings.metric, run)
     };
     let step = 2f64.powf(0.25);
-    let floor = prep.tau_fast * 1e-9;
-    let ceiling = prep.tau_fast / settings.min_width_ratio;
-    let start = (prep.tau_fast / settings.width_ratio).min(ceiling);
+    let floor = prep.tau_plan * 1e-9;
+    let ceiling = prep.tau_plan / settings.min_width_ratio;
+    let start = (prep.tau_plan / settings.width_ratio).min(ceiling);
     let (mut lo, mut hi);
     if f(start) <= budget {
         lo = start;
@@ -309,12 +348,17 @@ pub struct PlanOutcome {
     pub rule_estimate: ErrorEstimate,
     /// The error-budget search, when a budget was given.
     pub target: Option<Target>,
-    /// The recommended pulse.
+    /// The pulse the budget search chose, before the bench's limits (equal to `pulse` on an
+    /// unconstrained simulator).
+    pub ideal_pulse: Trapezoid,
+    /// The recommended pulse, as delivered at the circuit's input.
     pub pulse: Trapezoid,
     /// Its errors.
     pub estimate: ErrorEstimate,
     /// Planned width / rule-of-thumb width, when a budget was met.
     pub widening: Option<f64>,
+    /// The bench's view: limits, noise, period, capture.
+    pub bench: BenchPlan,
     /// Warnings.
     pub warnings: Vec<Warning>,
 }
@@ -324,7 +368,7 @@ pub fn plan(sc: &Scenario) -> PlanOutcome {
     let s = &sc.plan;
     let prep = prepare(&sc.network, s);
     let est = &prep.estimator;
-    let rule_width = prep.tau_fast / s.width_ratio;
+    let rule_width = prep.tau_plan / s.width_ratio;
     let rule = tied_pulse(sc.area, rule_width, s.edge_ratio);
     let rule_estimate = est.estimate(&rule, prep.run);
     let target = s
@@ -337,11 +381,29 @@ pub fn plan(sc: &Scenario) -> PlanOutcome {
         ),
         _ => (rule, None),
     };
-    let estimate = if widening.is_some() {
-        est.estimate(&pulse, prep.run)
-    } else {
-        rule_estimate.clone()
-    };
+    let mut bench = practical(sc, &prep, &pulse, true);
+    let mut ideal_pulse = pulse;
+    // With output noise, the plan takes the width that needs the fewest averages to meet the
+    // budget (the widest pulse within the bias budget would leave no room for noise).
+    if let (Some(sigma), Some(_)) = (
+        sc.bench.capture.as_ref().and_then(|c| c.noise),
+        bench.noise.as_ref(),
+    ) {
+        let budget = s
+            .target_error
+            .unwrap_or_else(|| bench.estimate.metric(s.metric).max(1e-3));
+        let limited = (!bench.scaling.reasons.is_empty()).then_some(bench.pulse.amplitude.abs());
+        let w_hi = pulse.width_50();
+        if let Some((w, _)) =
+            crate::bench::fewest_averages(est, s, limited, sc.area, sigma, prep.run, w_hi, budget)
+            && (w / w_hi - 1.0).abs() > 0.01
+        {
+            ideal_pulse = tied_pulse(sc.area, w, s.edge_ratio);
+            bench = practical(sc, &prep, &ideal_pulse, true);
+        }
+    }
+    let pulse = bench.pulse;
+    let estimate = bench.estimate.clone();
     let mut warnings = prep.warnings.clone();
     if let Some(Target::Unreachable { width, value }) = &target {
         warnings.push(warn(
@@ -356,14 +418,17 @@ pub fn plan(sc: &Scenario) -> PlanOutcome {
         ));
     }
     warnings.extend(pulse_warnings(sc, &prep, &pulse, &estimate, None));
+    warnings.extend(bench.warnings.iter().cloned());
     PlanOutcome {
         prep,
         rule,
         rule_estimate,
         target,
+        ideal_pulse,
         pulse,
         estimate,
         widening,
+        bench,
         warnings,
     }
 }
@@ -379,6 +444,8 @@ pub struct AssessOutcome {
     pub run: f64,
     /// Its errors.
     pub estimate: ErrorEstimate,
+    /// The pulse checked against the bench.
+    pub bench: BenchPlan,
     /// Warnings.
     pub warnings: Vec<Warning>,
 }
@@ -390,11 +457,14 @@ pub fn assess(sc: &Scenario, pulse: &Trapezoid, stated_run: Option<f64>) -> Asse
     let estimate = prep.estimator.estimate(pulse, run);
     let mut warnings = prep.warnings.clone();
     warnings.extend(pulse_warnings(sc, &prep, pulse, &estimate, stated_run));
+    let bench = practical(sc, &prep, pulse, false);
+    warnings.extend(bench.warnings.iter().cloned());
     AssessOutcome {
         prep,
         pulse: *pulse,
         run,
         estimate,
+        bench,
         warnings,
     }
 }
@@ -425,15 +495,15 @@ pub fn pulse_warnings(
             ));
         }
     }
-    if width > prep.tau_fast / s.min_width_ratio * (1.0 + 1e-9) {
+    if width > prep.tau_plan / s.min_width_ratio * (1.0 + 1e-9) {
         out.push(warn(
             "pulse-wide-for-network",
             format!(
-                "the 50 % width {} exceeds 1/{} of the fastest time scale ({}): the response will \
-                 look like a pulse response, not like h(t)",
+                "the 50 % width {} exceeds 1/{} of the fastest significant time scale ({}): the \
+                 response will look like a pulse response, not like h(t)",
                 eng(width, Dim::Time),
                 s.min_width_ratio,
-                eng(prep.tau_fast, Dim::Time)
+                eng(prep.tau_plan, Dim::Time)
             ),
         ));
     }
@@ -449,7 +519,7 @@ pub fn pulse_warnings(
             ),
         ));
     }
-    if width < prep.tau_fast * 1e-6 {
+    if width < prep.tau_plan * 1e-6 {
         out.push(warn(
             "pulse-narrow",
             format!(
@@ -489,12 +559,6 @@ pub fn pulse_warnings(
                 crate::report::with_unit(safe_area, sc.drive.area_unit()),
                 HAZARD_VOLTS
             ),
-        ));
-    }
-    for section in &sc.ignored_sections {
-        out.push(warn(
-            "section-ignored",
-            format!("the [{section}] section is not used by this version of pulseplan"),
         ));
     }
     out

@@ -464,6 +464,63 @@ impl FreeResponse {
         total.max(0.0)
     }
 
+    /// Σ_{k≥1} value(t + kT): what the earlier pulses of a train with period T still leave at
+    /// t. Per mode a geometric series, e^(pT)/(1 − e^(pT)) for a simple mode; for repeated
+    /// modes the sums Σ e^(pkT)(kT)ⁿ converge geometrically and are summed to rounding.
+    /// `None` when a mode does not decay (the train's response grows without bound).
+    pub fn periodic_tail(&self, period: f64) -> Option<FreeResponse> {
+        let mut terms = Vec::with_capacity(self.terms.len());
+        for t in &self.terms {
+            let rho = (t.p * period).exp();
+            if rho.norm() >= 1.0 {
+                return None;
+            }
+            let m = t.q.len();
+            // s[n] = Σ_{k≥1} ρ^k (kT)^n
+            let mut s = vec![ZERO; m];
+            s[0] = rho / (C::new(1.0, 0.0) - rho);
+            if m > 1 {
+                let mut rk = rho;
+                for k in 1..2_000_000u32 {
+                    let kt = k as f64 * period;
+                    let mut pw = kt;
+                    let mut biggest = 0.0f64;
+                    for sn in s.iter_mut().skip(1) {
+                        let add = rk * pw;
+                        *sn += add;
+                        biggest = biggest.max(add.norm() / sn.norm().max(f64::MIN_POSITIVE));
+                        pw *= kt;
+                    }
+                    if biggest < 1e-18 {
+                        break;
+                    }
+                    rk *= rho;
+                }
+            }
+            // Σ_k ρ^k Q(τ + kT) re-expanded in τ: coefficient i = Σ_{j≥i} q_j C(j, i) s[j − i].
+            let q = (0..m)
+                .map(|i| {
+                    let mut acc = ZERO;
+                    let mut binom = 1.0;
+                    for j in i..m {
+                        acc += t.q[j] * s[j - i] * binom;
+                        binom = binom * (j + 1) as f64 / (j + 1 - i) as f64;
+                    }
+                    acc
+                })
+                .collect();
+            terms.push(Term {
+                p: t.p,
+                q,
+                weight: t.weight,
+            });
+        }
+        Some(FreeResponse {
+            anchor: self.anchor,
+            terms,
+        })
+    }
+
     /// |p| of each mode term.
     pub fn frequencies(&self) -> impl Iterator<Item = f64> + '_ {
         self.terms.iter().map(|t| t.p.norm())
@@ -739,6 +796,36 @@ mod tests {
         // Re-anchoring preserves values.
         let r = h.reanchored(1e-3);
         assert!((r.at(2e-3) - h.at(2e-3)).abs() < 1e-12 * want);
+    }
+
+    #[test]
+    fn periodic_tail_is_the_sum_over_earlier_pulses() {
+        // Geometric series: Σ_{k≥1} f(t + kT) for f = a e^(−at) is f(t)·e^(−aT)/(1 − e^(−aT)); for
+        // a double pole the sum is checked against direct summation of the shifted responses.
+        let a = 100.0;
+        let h = Modal::new(&single_pole(a)).impulse();
+        let period = 0.02;
+        let tail = h.periodic_tail(period).unwrap();
+        let r = (-a * period).exp();
+        let want = h.at(0.003) * r / (1.0 - r);
+        assert!((tail.at(0.003) - want).abs() < 1e-13 * want);
+        let net = Network::from_spec(&NetworkSpec::Polynomial {
+            numerator: vec![1.0],
+            denominator: vec![1.0, 2.0 * a, a * a],
+        })
+        .unwrap();
+        let h2 = Modal::new(&net).impulse();
+        let tail2 = h2.periodic_tail(period).unwrap();
+        let direct: f64 = (1..200).map(|k| h2.at(0.004 + k as f64 * period)).sum();
+        assert!((tail2.at(0.004) - direct).abs() < 1e-12 * direct.abs());
+        // A mode that does not decay has no finite tail.
+        let integ = Network::from_spec(&NetworkSpec::ZeroPoleGain {
+            zeros: vec![],
+            poles: vec![C::new(0.0, 0.0), C::new(-5.0, 0.0)],
+            gain: 1.0,
+        })
+        .unwrap();
+        assert!(Modal::new(&integ).impulse().periodic_tail(1.0).is_none());
     }
 
     #[test]

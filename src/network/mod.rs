@@ -22,6 +22,8 @@ pub enum NetworkSpec {
         /// Denominator coefficients.
         denominator: Vec<f64>,
     },
+    /// A circuit, analysed by modified nodal analysis (see [`crate::netlist`]).
+    Netlist(crate::netlist::NetlistSpec),
     /// H(s) = gain·Π(s − zᵢ)/Π(s − pᵢ).
     ZeroPoleGain {
         /// Zeros in rad/s (conjugate pairs complete).
@@ -60,6 +62,9 @@ pub enum NetworkError {
         /// The offending value, formatted.
         value: String,
     },
+    /// The circuit cannot be analysed; the error names the culprit part or node.
+    #[error("{0}")]
+    Netlist(crate::netlist::NetlistError),
     /// A non-finite or otherwise unusable number.
     #[error("{0}")]
     Invalid(String),
@@ -94,6 +99,18 @@ impl Mode {
     pub fn damping(&self) -> Option<f64> {
         let w = self.pole.norm();
         (w > 0.0).then(|| -self.pole.re / w)
+    }
+
+    /// Dominance of the mode in the output: Σₖ |rₖ|/|Re p|^k, the bound on ∫|mode(t)| dt (the
+    /// dominant-pole measure |R|/|Re λ| of Rommes & Martins 2006, extended to repeated poles).
+    /// Infinite for a mode that does not decay.
+    pub fn dominance(&self) -> f64 {
+        let a = self.pole.re.abs();
+        self.residues
+            .iter()
+            .enumerate()
+            .map(|(k, r)| r.norm() / a.powi(k as i32 + 1))
+            .sum()
     }
 
     /// Fastest time scale this mode imposes on a pulse: 1/|p| (for an underdamped pair the
@@ -158,6 +175,9 @@ impl Network {
                 denominator,
             } => from_polynomials(numerator, denominator)?,
             NetworkSpec::ZeroPoleGain { zeros, poles, gain } => from_zpk(zeros, poles, *gain)?,
+            NetworkSpec::Netlist(spec) => {
+                crate::netlist::analyse(spec).map_err(NetworkError::Netlist)?
+            }
         };
         if net.modes.is_empty() {
             return Err(NetworkError::NoPoles);

@@ -1,6 +1,7 @@
 //! The JSON object printed by `--json`.
 
 use super::Cursor;
+use crate::bench::BenchPlan;
 use crate::estimate::{ErrorEstimate, Reading};
 use crate::network::Network;
 use crate::plan::{AssessOutcome, PlanOutcome, Prepared, Target, Warning};
@@ -21,7 +22,8 @@ pub fn network_json(net: &Network, prep: &Prepared) -> Value {
     let modes: Vec<Value> = net
         .modes
         .iter()
-        .map(|m| {
+        .enumerate()
+        .map(|(i, m)| {
             json!({
                 "pole": c2(m.pole),
                 "multiplicity": m.multiplicity(),
@@ -31,6 +33,8 @@ pub fn network_json(net: &Network, prep: &Prepared) -> Value {
                 "time_constant": finite(m.time_constant()),
                 "natural_frequency": m.natural_frequency(),
                 "damping": m.damping().map_or(Value::Null, |d| json!(d)),
+                "share": prep.shares[i],
+                "significant": prep.significant[i],
             })
         })
         .collect();
@@ -48,6 +52,7 @@ pub fn network_json(net: &Network, prep: &Prepared) -> Value {
         "t_peak": prep.shape.t_peak,
         "settle_time": prep.shape.settle,
         "tau_fast": prep.tau_fast,
+        "tau_fast_significant": prep.tau_plan,
         "tau_slow": prep.tau_slow,
         "stable": net.stable(),
     })
@@ -138,6 +143,56 @@ fn scenario_json(sc: &Scenario) -> Value {
     })
 }
 
+/// The bench part of the JSON: limits applied, noise curves, period and capture.
+pub fn bench_json(b: &BenchPlan) -> Value {
+    let noise = b.noise.as_ref().map_or(Value::Null, |n| {
+        json!({
+            "widths": n.widths, "bias": n.bias, "noise": n.noise, "total": n.total,
+            "best_width": n.best_width, "best_bias": n.best_bias, "best_noise": n.best_noise,
+        })
+    });
+    let period = b.period.as_ref().map_or(
+        Value::Null,
+        |p| json!({"period": p.period, "tail": p.tail, "target": p.target, "met": p.met}),
+    );
+    let c = &b.capture;
+    let split = c.split.map_or(Value::Null, |(f, s)| {
+        json!([
+            {"interval": f.interval, "length": f.length, "points": f.points},
+            {"interval": s.interval, "length": s.length, "points": s.points},
+        ])
+    });
+    json!({
+        "display_amplitude": b.display_amplitude,
+        "open_over_display": b.open_over_display,
+        "scaling": {
+            "requested_area": b.scaling.requested_area,
+            "area": b.scaling.area,
+            "read_factor": b.scaling.read_factor(),
+            "reasons": b.scaling.reasons,
+        },
+        "peak_input": b.peak_input,
+        "peak_output": b.peak_output,
+        "timing_change": b.timing_change.map(|(before, after)| json!({"before": before, "after": after})),
+        "period": period,
+        "noise": noise,
+        "averages": b.averages,
+        "capture": {
+            "sample_interval": c.sample_interval,
+            "sample_rate": c.sample_rate,
+            "pre_trigger": c.pre_trigger,
+            "record_length": c.record_length,
+            "points": c.points,
+            "averages": c.averages,
+            "fits_memory": c.fits_memory,
+            "split": split,
+            "samples_across_pulse": c.samples_across_pulse,
+            "trigger": "generator sync output, rising edge",
+        },
+        "notes": b.notes,
+    })
+}
+
 /// JSON for `plan`.
 pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
     let target = match &out.target {
@@ -158,7 +213,9 @@ pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
         "network": network_json(&sc.network, &out.prep),
         "pulse": pulse_json(&out.pulse, out.prep.run),
         "error": error_json(&out.estimate),
+        "bench": bench_json(&out.bench),
         "plan": {
+            "ideal_pulse": pulse_json(&out.ideal_pulse, out.prep.run),
             "rule_of_thumb": {
                 "pulse": pulse_json(&out.rule, out.prep.run),
                 "error": error_json(&out.rule_estimate),
@@ -179,6 +236,7 @@ pub fn assess_json(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> Value {
         "network": network_json(&sc.network, &out.prep),
         "pulse": pulse_json(&out.pulse, out.run),
         "error": error_json(&out.estimate),
+        "bench": bench_json(&out.bench),
         "at": cursors_json(cs),
         "warnings": warnings_json(&out.warnings),
     })

@@ -1,6 +1,7 @@
 //! The human-readable text report.
 
 use super::Cursor;
+use crate::bench::BenchPlan;
 use crate::estimate::ErrorEstimate;
 use crate::network::Network;
 use crate::plan::{AssessOutcome, PlanOutcome, Prepared, Target, Warning};
@@ -48,10 +49,19 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
     let _ = writeln!(s, "Network ({}, order {})", net.form.name(), net.order());
     let _ = writeln!(
         s,
-        "  {:<26} {:>4}  {:<30} {:>10} {:>12} {:>8}",
-        "pole [rad/s]", "m", "residues r1, r2… [1/s^k]", "τ", "|p|", "ζ"
+        "  {:<26} {:>4}  {:<30} {:>10} {:>12} {:>8} {:>9}",
+        "pole [rad/s]", "m", "residues r1, r2… [1/s^k]", "τ", "|p|", "ζ", "share"
     );
-    for m in &net.modes {
+    // Long tables keep the significant modes and summarise the rest.
+    let long = net.modes.len() > 24;
+    let mut hidden = 0usize;
+    let mut hidden_share = 0.0f64;
+    for (i, m) in net.modes.iter().enumerate() {
+        if long && (!prep.significant[i] || i >= 40) {
+            hidden += 1;
+            hidden_share = hidden_share.max(prep.shares[i]);
+            continue;
+        }
         let res = if net.residues_known {
             m.residues
                 .iter()
@@ -67,15 +77,38 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
             "∞".into()
         };
         let zeta = m.damping().map_or("–".into(), |d| format!("{d:.4}"));
+        let share = if net.residues_known {
+            format!(
+                "{}{}",
+                percent_unsigned(prep.shares[i]),
+                if prep.significant[i] { "" } else { "°" }
+            )
+        } else {
+            "–".into()
+        };
         let _ = writeln!(
             s,
-            "  {:<26} {:>4}  {:<30} {:>10} {:>12} {:>8}",
+            "  {:<26} {:>4}  {:<30} {:>10} {:>12} {:>8} {:>9}",
             pole_text(m.pole),
             m.multiplicity(),
             res,
             tau,
             eng(m.natural_frequency(), Dim::AngularFrequency),
-            zeta
+            zeta,
+            share
+        );
+    }
+    if hidden > 0 {
+        let _ = writeln!(
+            s,
+            "  … {hidden} more modes not listed (each under {} of the response; all kept in every error figure)",
+            percent_unsigned(hidden_share.max(1e-12))
+        );
+    }
+    if net.residues_known {
+        let _ = writeln!(
+            s,
+            "  share: the mode's part of Σ|r|/|Re p| (its bound on ∫|h|); ° below the significance threshold"
         );
     }
     if !net.zeros.is_empty() {
@@ -126,6 +159,13 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
         "  fastest time scale     {}   (1/max|p|)",
         eng(prep.tau_fast, Dim::Time)
     );
+    if prep.tau_plan != prep.tau_fast {
+        let _ = writeln!(
+            s,
+            "  fastest significant    {}   (the pulse is sized against this; every mode stays in the error figures)",
+            eng(prep.tau_plan, Dim::Time)
+        );
+    }
     match prep.tau_slow {
         Some(t) => {
             let _ = writeln!(
@@ -238,6 +278,65 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
     );
 }
 
+fn bench_text(s: &mut String, b: &BenchPlan, sc: &Scenario) {
+    let dim = sc.drive.dim();
+    let _ = writeln!(s, "On the bench");
+    if b.open_over_display != 1.0 {
+        let _ = writeln!(
+            s,
+            "  set the generator's display to {} ({}× that reaches a high-impedance input: {})",
+            eng(b.display_amplitude, dim),
+            plain(b.open_over_display),
+            eng(b.pulse.amplitude, dim)
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  peak at the input {}   predicted peak at the output {}",
+        eng(b.peak_input, dim),
+        value_text(b.peak_output)
+    );
+    match &b.period {
+        Some(p) => {
+            let _ = writeln!(
+                s,
+                "  period {} (earlier pulses add {}, target ≤ {})",
+                eng(p.period, Dim::Time),
+                percent_unsigned(p.tail),
+                percent_unsigned(p.target)
+            );
+        }
+        None => {
+            let _ = writeln!(s, "  single shots only (a mode does not decay)");
+        }
+    }
+    let c = &b.capture;
+    let _ = writeln!(
+        s,
+        "  capture: every {} ({:.1} samples across the pulse), record {} with {} pre-trigger, {} points, {} average(s), trigger on the generator's sync",
+        eng(c.sample_interval, Dim::Time),
+        c.samples_across_pulse,
+        eng(c.record_length, Dim::Time),
+        eng(c.pre_trigger, Dim::Time),
+        c.points,
+        c.averages
+    );
+    if let Some((f, co)) = &c.split {
+        let _ = writeln!(
+            s,
+            "  memory too small for one record: record 1 every {} for {}; record 2 every {} for {}",
+            eng(f.interval, Dim::Time),
+            eng(f.length, Dim::Time),
+            eng(co.interval, Dim::Time),
+            eng(co.length, Dim::Time)
+        );
+    }
+    for n in &b.notes {
+        let _ = writeln!(s, "  note: {n}");
+    }
+    let _ = writeln!(s);
+}
+
 fn cursors_text(s: &mut String, cs: &[Cursor]) {
     if cs.is_empty() {
         return;
@@ -293,7 +392,7 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
     network_text(&mut s, &sc.network, &out.prep);
     let _ = writeln!(s);
     let rule_heading = format!(
-        "Rule of thumb (common practice, no source): width = τ_fast/{}, edges = width/{}",
+        "Rule of thumb (common practice, no source): width = fastest significant time scale/{}, edges = width/{}",
         sc.plan.width_ratio, sc.plan.edge_ratio
     );
     pulse_text(&mut s, &rule_heading, &out.rule, out.prep.run, sc);
@@ -316,13 +415,11 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
                 percent_unsigned(*value),
                 out.widening.unwrap_or(1.0)
             );
-            let _ = writeln!(s);
-            pulse_text(&mut s, "Recommended pulse", &out.pulse, out.prep.run, sc);
         }
         Some(Target::Capped { width, value }) => {
             let _ = writeln!(
                 s,
-                "Error budget: {} on the {} error would allow a wider pulse; capped at τ_fast/{} = {} \
+                "Error budget: {} on the {} error would allow a wider pulse; capped at (fastest significant time scale)/{} = {} \
                  (error {}), {:.2}× the rule-of-thumb width",
                 percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
                 sc.plan.metric.name(),
@@ -331,8 +428,6 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
                 percent_unsigned(*value),
                 out.widening.unwrap_or(1.0)
             );
-            let _ = writeln!(s);
-            pulse_text(&mut s, "Recommended pulse", &out.pulse, out.prep.run, sc);
         }
         Some(Target::Unreachable { .. }) => {
             let _ = writeln!(
@@ -347,8 +442,17 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
             );
         }
     }
+    let _ = writeln!(s);
+    pulse_text(
+        &mut s,
+        "Recommended pulse (at the circuit's input)",
+        &out.pulse,
+        out.prep.run,
+        sc,
+    );
     let _ = writeln!(s, "  run length basis: {}", out.prep.run_basis);
     let _ = writeln!(s);
+    bench_text(&mut s, &out.bench, sc);
     error_text(&mut s, &out.estimate);
     let _ = writeln!(s);
     cursors_text(&mut s, cs);
@@ -364,6 +468,7 @@ pub fn assess_text(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> String 
     let _ = writeln!(s);
     pulse_text(&mut s, "Pulse assessed ([pulse])", &out.pulse, out.run, sc);
     let _ = writeln!(s);
+    bench_text(&mut s, &out.bench, sc);
     error_text(&mut s, &out.estimate);
     let _ = writeln!(s);
     cursors_text(&mut s, cs);

@@ -1,6 +1,10 @@
 //! Scenario files: the TOML schema, validation with file:line messages, and conversion into
 //! the model types the rest of the library uses.
 
+mod circuit;
+mod instruments;
+
+use crate::bench::Bench;
 use crate::network::{Network, NetworkError, NetworkSpec};
 use crate::pulse::{Convention, Trapezoid};
 use crate::units::{self, Dim};
@@ -86,6 +90,8 @@ pub struct PlanSettings {
     pub edge_ratio: f64,
     /// The planned width never exceeds τ_fast / this (and a wider pulse is warned about).
     pub min_width_ratio: f64,
+    /// A mode whose share of Σ dominance is below this does not set the pulse's time scale.
+    pub significance: f64,
     /// Run length in slowest time constants.
     pub settle_multiple: f64,
 }
@@ -100,6 +106,8 @@ impl Default for PlanSettings {
             width_ratio: 100.0,
             edge_ratio: 100.0,
             min_width_ratio: 10.0,
+            // Modes under 1 % of the response's L1 bound are not significant (our choice).
+            significance: 0.01,
             settle_multiple: 5.0,
         }
     }
@@ -137,33 +145,33 @@ pub struct Scenario {
     pub plan: PlanSettings,
     /// The user's own pulse, if any.
     pub pulse: Option<GivenPulse>,
-    /// Sections present but not used by this version (reported as notes).
-    pub ignored_sections: Vec<String>,
+    /// The bench: generator, capture and circuit limits (all optional).
+    pub bench: Bench,
 }
 
 /// A quantity as written: a TOML number or a string with engineering notation.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(untagged)]
-enum Qty {
+pub(crate) enum Qty {
     Int(i64),
     Float(f64),
     Text(String),
 }
 
-type SQty = Spanned<Qty>;
+pub(crate) type SQty = Spanned<Qty>;
 type SList = Spanned<Vec<SQty>>;
 
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
-struct RawScenario {
+pub(crate) struct RawScenario {
     title: Option<String>,
     network: Option<Spanned<RawNetwork>>,
     drive: Option<Spanned<RawDrive>>,
     plan: Option<RawPlan>,
     pulse: Option<Spanned<RawPulse>>,
-    generator: Option<toml::Value>,
-    capture: Option<toml::Value>,
-    limits: Option<toml::Value>,
+    pub(crate) generator: Option<Spanned<instruments::RawGenerator>>,
+    pub(crate) capture: Option<Spanned<instruments::RawCapture>>,
+    pub(crate) limits: Option<Spanned<instruments::RawLimits>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -175,6 +183,10 @@ struct RawNetwork {
     poles: Option<SList>,
     zeros: Option<SList>,
     gain: Option<SQty>,
+    input: Option<Spanned<String>>,
+    output: Option<Spanned<circuit::RawOutput>>,
+    source_resistance: Option<SQty>,
+    parts: Option<Spanned<Vec<Spanned<circuit::RawPart>>>>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -192,6 +204,7 @@ struct RawPlan {
     width_ratio: Option<SQty>,
     edge_ratio: Option<SQty>,
     min_width_ratio: Option<SQty>,
+    significance: Option<SQty>,
     settle_multiple: Option<SQty>,
 }
 
@@ -207,18 +220,18 @@ struct RawPulse {
 }
 
 /// Reads one file's values, turning spans into line numbers for messages.
-struct Reader<'a> {
+pub(crate) struct Reader<'a> {
     file: &'a str,
     text: &'a str,
 }
 
 impl Reader<'_> {
-    fn line_of(&self, span: &Range<usize>) -> usize {
+    pub(crate) fn line_of(&self, span: &Range<usize>) -> usize {
         let end = span.start.min(self.text.len());
         self.text[..end].bytes().filter(|&b| b == b'\n').count() + 1
     }
 
-    fn err(
+    pub(crate) fn err(
         &self,
         span: Option<&Range<usize>>,
         key: &str,
@@ -232,7 +245,7 @@ impl Reader<'_> {
         }
     }
 
-    fn number(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
+    pub(crate) fn number(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
         let v = match q.get_ref() {
             Qty::Int(i) => *i as f64,
             Qty::Float(f) => *f,
@@ -245,7 +258,7 @@ impl Reader<'_> {
         Ok(v)
     }
 
-    fn positive(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
+    pub(crate) fn positive(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
         let v = self.number(q, key, dim)?;
         if v <= 0.0 {
             return Err(self.err(Some(&q.span()), key, format!("must be positive, got {v}")));
@@ -253,7 +266,7 @@ impl Reader<'_> {
         Ok(v)
     }
 
-    fn list(&self, l: &SList, key: &str, dim: Dim) -> Result<Vec<f64>, ScenarioError> {
+    pub(crate) fn list(&self, l: &SList, key: &str, dim: Dim) -> Result<Vec<f64>, ScenarioError> {
         l.get_ref()
             .iter()
             .enumerate()
@@ -261,7 +274,11 @@ impl Reader<'_> {
             .collect()
     }
 
-    fn complex_list(&self, l: &SList, key: &str) -> Result<Vec<Complex64>, ScenarioError> {
+    pub(crate) fn complex_list(
+        &self,
+        l: &SList,
+        key: &str,
+    ) -> Result<Vec<Complex64>, ScenarioError> {
         l.get_ref()
             .iter()
             .enumerate()
@@ -313,24 +330,17 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
         .network
         .as_ref()
         .ok_or_else(|| rd.err(None, "network", "the [network] section is missing: give time_constants, numerator/denominator, or poles/zeros/gain"))?;
-    let network_spec = network_spec(&rd, net_raw)?;
+    let (drive, area) = drive(&rd, raw.drive.as_ref())?;
+    let bench = instruments::bench(&rd, &raw, drive)?;
+    let generator_resistance = bench.generator.as_ref().and_then(|g| g.output_resistance);
+    let network_spec = network_spec(&rd, net_raw, drive, generator_resistance)?;
     let network = Network::from_spec(&network_spec).map_err(|e| network_error(&rd, net_raw, e))?;
 
-    let (drive, area) = drive(&rd, raw.drive.as_ref())?;
     let plan = plan_settings(&rd, raw.plan.as_ref())?;
     let pulse = match &raw.pulse {
         Some(p) => Some(given_pulse(&rd, p, drive)?),
         None => None,
     };
-    let ignored_sections = [
-        ("generator", raw.generator.is_some()),
-        ("capture", raw.capture.is_some()),
-        ("limits", raw.limits.is_some()),
-    ]
-    .iter()
-    .filter(|(_, present)| *present)
-    .map(|(n, _)| n.to_string())
-    .collect();
     Ok(Scenario {
         file: file.to_string(),
         name: name.to_string(),
@@ -341,11 +351,16 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
         area,
         plan,
         pulse,
-        ignored_sections,
+        bench,
     })
 }
 
-fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, ScenarioError> {
+fn network_spec(
+    rd: &Reader,
+    net: &Spanned<RawNetwork>,
+    drive: DriveKind,
+    generator_resistance: Option<f64>,
+) -> Result<NetworkSpec, ScenarioError> {
     let n = net.get_ref();
     let forms: Vec<(&str, Range<usize>)> = [
         (
@@ -367,6 +382,15 @@ fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, S
                 .map(|l| l.span())
                 .or(n.gain.as_ref().map(|g| g.span())),
         ),
+        (
+            "parts/input/output",
+            n.parts
+                .as_ref()
+                .map(|l| l.span())
+                .or(n.input.as_ref().map(|i| i.span()))
+                .or(n.output.as_ref().map(|o| o.span()))
+                .or(n.source_resistance.as_ref().map(|o| o.span())),
+        ),
     ]
     .into_iter()
     .filter_map(|(name, span)| span.map(|s| (name, s)))
@@ -376,7 +400,7 @@ fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, S
             return Err(rd.err(
                 Some(&net.span()),
                 "network",
-                "no network form given: use time_constants, numerator/denominator, or poles/zeros/gain",
+                "no network form given: use time_constants, numerator/denominator, poles/zeros/gain, or a netlist (input, output, parts)",
             ));
         }
         1 => {}
@@ -392,6 +416,22 @@ fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, S
                 ),
             ));
         }
+    }
+    if n.parts.is_some() || n.input.is_some() || n.output.is_some() || n.source_resistance.is_some()
+    {
+        let c = circuit::RawCircuit {
+            input: n.input.as_ref(),
+            output: n.output.as_ref(),
+            source_resistance: n.source_resistance.as_ref(),
+            parts: n.parts.as_ref(),
+        };
+        return Ok(NetworkSpec::Netlist(circuit::netlist_spec(
+            rd,
+            &net.span(),
+            c,
+            drive,
+            generator_resistance,
+        )?));
     }
     if let Some(l) = &n.time_constants {
         let taus = rd.list(l, "network.time_constants", Dim::Time)?;
@@ -502,7 +542,15 @@ fn network_spec(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, S
 }
 
 fn network_error(rd: &Reader, net: &Spanned<RawNetwork>, e: NetworkError) -> ScenarioError {
-    rd.err(Some(&net.span()), "network", e.to_string())
+    match e {
+        NetworkError::Netlist(ne) => ScenarioError {
+            file: rd.file.to_string(),
+            line: ne.line.unwrap_or_else(|| rd.line_of(&net.span())),
+            key: format!("network: {}", ne.culprit),
+            message: ne.message,
+        },
+        other => rd.err(Some(&net.span()), "network", other.to_string()),
+    }
 }
 
 fn drive(rd: &Reader, d: Option<&Spanned<RawDrive>>) -> Result<(DriveKind, f64), ScenarioError> {
@@ -586,6 +634,17 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
     }
     if let Some(q) = &p.width_ratio {
         s.width_ratio = rd.positive(q, "plan.width_ratio", Dim::Number)?;
+    }
+    if let Some(q) = &p.significance {
+        let v = rd.number(q, "plan.significance", Dim::Fraction)?;
+        if !(0.0..1.0).contains(&v) {
+            return Err(rd.err(
+                Some(&q.span()),
+                "plan.significance",
+                "must be between 0 and 100 %",
+            ));
+        }
+        s.significance = v;
     }
     if let Some(q) = &p.min_width_ratio {
         s.min_width_ratio = rd.positive(q, "plan.min_width_ratio", Dim::Number)?;

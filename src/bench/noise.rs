@@ -1,0 +1,152 @@
+//! Signal-to-noise: at a fixed amplitude, a wider pulse carries more area (less noise in the
+//! reading y/area) but more bias. The total error against width, and the averages needed.
+
+use crate::estimate::Estimator;
+use crate::plan::tied_pulse;
+use crate::scenario::PlanSettings;
+
+/// The three error curves against width, and the width that minimises the total.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NoiseCurves {
+    /// 50 % widths, s (log-spaced).
+    pub widths: Vec<f64>,
+    /// |bias| of the chosen metric (relative).
+    pub bias: Vec<f64>,
+    /// Noise in one acquisition, relative: σₙ/(A·w·normaliser).
+    pub noise: Vec<f64>,
+    /// bias + noise (a conservative, linear sum).
+    pub total: Vec<f64>,
+    /// Width at the minimum total.
+    pub best_width: f64,
+    /// Bias there.
+    pub best_bias: f64,
+    /// Single-acquisition noise there.
+    pub best_noise: f64,
+}
+
+impl NoiseCurves {
+    /// Averages needed to bring bias + noise/√N within the budget at the best width
+    /// (white noise averages down as 1/√N); `None` when the bias alone exceeds the budget.
+    pub fn averages_for(&self, budget: f64) -> Option<u64> {
+        let room = budget - self.best_bias;
+        if room <= 0.0 {
+            return None;
+        }
+        Some(((self.best_noise / room).powi(2)).ceil().max(1.0) as u64)
+    }
+}
+
+/// Error curves for widths in [w_min, w_max] at a fixed amplitude (V or A) and output noise
+/// σₙ (rms, one acquisition), with the edges tied to the width.
+pub fn noise_curves(
+    est: &Estimator,
+    settings: &PlanSettings,
+    amplitude: f64,
+    noise_rms: f64,
+    run: f64,
+    w_min: f64,
+    w_max: f64,
+) -> NoiseCurves {
+    let bias = |w: f64| {
+        let p = tied_pulse(1.0, w, settings.edge_ratio);
+        est.metric(&p, settings.metric, run.max(2.0 * p.end()))
+    };
+    let noise = |w: f64| noise_rms / (amplitude.abs() * w * est.normaliser());
+    let n = 48;
+    let ratio = (w_max / w_min).powf(1.0 / (n - 1) as f64);
+    let widths: Vec<f64> = (0..n).map(|k| w_min * ratio.powi(k as i32)).collect();
+    let b: Vec<f64> = widths.iter().map(|&w| bias(w)).collect();
+    let nz: Vec<f64> = widths.iter().map(|&w| noise(w)).collect();
+    let total: Vec<f64> = b.iter().zip(&nz).map(|(x, y)| x + y).collect();
+    // Refine the minimum by golden section on log width around the best sample.
+    let k = total
+        .iter()
+        .enumerate()
+        .min_by(|a, b| a.1.total_cmp(b.1))
+        .map_or(0, |(k, _)| k);
+    let (mut lo, mut hi) = (
+        widths[k.saturating_sub(1)].ln(),
+        widths[(k + 1).min(n - 1)].ln(),
+    );
+    let f = |lw: f64| bias(lw.exp()) + noise(lw.exp());
+    let g = (5f64.sqrt() - 1.0) / 2.0;
+    for _ in 0..60 {
+        let c = hi - g * (hi - lo);
+        let d = lo + g * (hi - lo);
+        if f(c) < f(d) {
+            hi = d;
+        } else {
+            lo = c;
+        }
+    }
+    let best_width = ((lo + hi) / 2.0).exp();
+    NoiseCurves {
+        best_bias: bias(best_width),
+        best_noise: noise(best_width),
+        widths,
+        bias: b,
+        noise: nz,
+        total,
+        best_width,
+    }
+}
+
+/// The width that needs the fewest averages to bring bias + noise/√N within the budget:
+/// minimises g(w) = noise(w)/(budget − bias(w)) (N = ⌈g²⌉, white noise averaging as 1/√N) over
+/// (w_hi/10⁴, w_hi], and returns the widest width whose g is within 2 % of that minimum (when
+/// the amplitude is not limited, noise does not depend on width and any narrow pulse will do:
+/// the widest such one keeps the most margin from the edges). `amplitude_limit` is the largest
+/// amplitude the bench allows (None: the area is kept, amplitude = area/width).
+#[allow(clippy::too_many_arguments)]
+pub fn fewest_averages(
+    est: &Estimator,
+    settings: &PlanSettings,
+    amplitude_limit: Option<f64>,
+    area: f64,
+    noise_rms: f64,
+    run: f64,
+    w_hi: f64,
+    budget: f64,
+) -> Option<(f64, u64)> {
+    let g = |w: f64| {
+        let p = tied_pulse(1.0, w, settings.edge_ratio);
+        let bias = est.metric(&p, settings.metric, run.max(2.0 * p.end()));
+        if bias >= budget {
+            return f64::INFINITY;
+        }
+        let amp = amplitude_limit.map_or(area / w, |a| a.min(area / w));
+        noise_rms / (amp * w * est.normaliser()) / (budget - bias)
+    };
+    let n = 80;
+    let w_lo = w_hi / 1e4;
+    let ratio = (w_hi / w_lo).powf(1.0 / (n - 1) as f64);
+    let ws: Vec<f64> = (0..n).map(|k| w_lo * ratio.powi(k as i32)).collect();
+    let gs: Vec<f64> = ws.iter().map(|&w| g(w)).collect();
+    let (k_min, g_min) = gs
+        .iter()
+        .enumerate()
+        .min_by(|a, b| a.1.total_cmp(b.1))
+        .map(|(k, &v)| (k, v))?;
+    if !g_min.is_finite() {
+        return None;
+    }
+    let limit = 1.02 * g_min;
+    let k = (k_min..n)
+        .take_while(|&k| gs[k] <= limit)
+        .last()
+        .unwrap_or(k_min);
+    let mut lo = ws[k];
+    if k + 1 < n {
+        let mut hi = ws[k + 1];
+        for _ in 0..50 {
+            let mid = (lo * hi).sqrt();
+            if g(mid) <= limit {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+    }
+    let averages = (g(lo).powi(2)).ceil().max(1.0) as u64;
+    Some((lo, averages))
+}

@@ -1,0 +1,306 @@
+//! Netlists: a circuit of parts, reduced to a state space and then to modes.
+//!
+//! # Pipeline
+//!
+//! 1. [`check`](self) — values, names and references are validated and the topology is
+//!    checked for singular structures (dangling nodes, loops of voltage-type branches,
+//!    cut-sets of current sources, floating subcircuits). Every error names its culprit (a
+//!    part or node) and, where there is one, the part's source line.
+//! 2. Modified nodal analysis (Ho, Ruehli & Brennan 1975) assembles a descriptor system
+//!    `E x' = A x + B u`, `y = C x` whose unknowns are the node voltages plus one branch
+//!    current for every inductor, voltage-type element (controlled voltage sources, op-amp
+//!    outputs, the stimulus source) and every part whose current is sensed or observed.
+//! 3. The descriptor system is reduced to a state space by orthogonal transformations only:
+//!    an SVD of `E` (block by block, using its sparsity) splits dynamic and algebraic
+//!    unknowns; the algebraic ones are eliminated through an SVD of their block (Schur
+//!    complement). Where that block is singular (capacitor loops with voltage sources,
+//!    inductor cut-sets with current sources) the resulting constraints on the dynamic
+//!    unknowns are solved for, which lowers the order, and the unknowns they fix are
+//!    differentiated; derivatives of the input are tracked exactly and finally removed from
+//!    the state equation by a change of state. A remaining derivative in the output means an
+//!    improper network function.
+//! 4. Modes come from the real Schur form of `A`: residues of simple poles from right and
+//!    left eigenvectors of the quasi-triangular factor; clusters of numerically
+//!    indistinguishable eigenvalues (Jordan blocks, e.g. buffered identical sections) get
+//!    their Laurent coefficients from contour integrals of the resolvent, evaluated by the
+//!    trapezoid rule on a circle around the cluster.
+//!
+//! # Conventions
+//!
+//! * Ground is the node `0` or `gnd` (any case). Other node names are case-sensitive; part
+//!   names are matched without regard to case.
+//! * The current *through* a part (for [`Output::CurrentThrough`] and for the `sense` of a
+//!   current-controlled source) flows from `nodes[0]` through the part to `nodes[1]`. For an
+//!   op-amp the branch runs from its output node to ground, so its current is the current
+//!   flowing *into* the op-amp's output terminal (minus the current it delivers).
+//! * A voltage-controlled current source drives `gain·(v(control[0]) − v(control[1]))` from
+//!   `nodes[0]` through itself to `nodes[1]` (out of `nodes[0]`, into `nodes[1]`); a CCCS
+//!   likewise drives `gain·i(sense)`. Controlled voltage sources set
+//!   `v(nodes[0]) − v(nodes[1])`.
+//! * Coupled inductors: both `nodes[0]` terminals are the dotted ends; `M = k·√(L₁L₂)`, and a
+//!   negative `k` reverses the sense.
+//! * [`Stimulus::Voltage`]: an ideal source `u` from `input` to ground, or, with
+//!   `source_resistance = R_s > 0`, the source behind `R_s` in series (Thévenin).
+//!   `R_s = 0` is the ideal source.
+//! * [`Stimulus::Current`]: a current `u` flowing from ground into `input`, with
+//!   `source_resistance` (if given, > 0) in parallel from `input` to ground (Norton).
+//! * Op-amps: `gain = None, gbw = None` is the ideal nullor (`v₊ = v₋`, output current free);
+//!   `gain = A₀` alone is a finite gain `v_out = A₀(v₊ − v₋)` with no pole; `gain` and `gbw`
+//!   give the one-pole model `A(s) = A₀/(1 + s·A₀/(2π·gbw))`; `gbw` alone is the integrator
+//!   limit `A(s) = 2π·gbw/s`.
+
+mod check;
+mod mna;
+mod modes;
+mod reduce;
+#[cfg(test)]
+mod tests;
+
+use nalgebra::{DMatrix, DVector};
+
+use crate::network::Network;
+
+/// The quantity the network function maps the stimulus to.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Output {
+    /// Voltage of a node against ground.
+    Node(String),
+    /// Voltage of the first node minus that of the second.
+    Differential(String, String),
+    /// Current through a part (from its `nodes[0]` to its `nodes[1]`).
+    CurrentThrough(String),
+}
+
+/// How the circuit is driven.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stimulus {
+    /// A voltage source from `input` to ground (source resistance in series).
+    Voltage,
+    /// A current injected into `input` from ground (source resistance in parallel).
+    Current,
+}
+
+/// One part of the netlist.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Part {
+    /// Unique name (matched without regard to case).
+    pub name: String,
+    /// What the part is and how it is connected.
+    pub kind: PartKind,
+    /// Source line, for diagnostics.
+    pub line: usize,
+    /// Tolerance as a fraction (not used by the analysis; validated to be in [0, 1)).
+    pub tolerance: Option<f64>,
+}
+
+/// The kinds of part.
+#[derive(Debug, Clone, PartialEq)]
+pub enum PartKind {
+    /// Resistor, ohms.
+    Resistor {
+        /// Terminals.
+        nodes: [String; 2],
+        /// Resistance in Ω (> 0).
+        value: f64,
+    },
+    /// Capacitor, farads.
+    Capacitor {
+        /// Terminals.
+        nodes: [String; 2],
+        /// Capacitance in F (> 0).
+        value: f64,
+    },
+    /// Inductor, henries.
+    Inductor {
+        /// Terminals (`nodes[0]` is the dotted end for couplings).
+        nodes: [String; 2],
+        /// Inductance in H (> 0).
+        value: f64,
+    },
+    /// Magnetic coupling of two inductors, `M = k·√(L₁L₂)`, `0 < |k| < 1`.
+    Coupling {
+        /// Names of the two inductors.
+        inductors: [String; 2],
+        /// Coupling coefficient.
+        k: f64,
+    },
+    /// Operational amplifier (see the module documentation for the models).
+    OpAmp {
+        /// Non-inverting input.
+        plus: String,
+        /// Inverting input.
+        minus: String,
+        /// Output (driven against ground).
+        output: String,
+        /// Open-loop DC gain A₀.
+        gain: Option<f64>,
+        /// Gain–bandwidth product in Hz.
+        gbw: Option<f64>,
+    },
+    /// Voltage-controlled voltage source: `v(n0) − v(n1) = gain·(v(c0) − v(c1))`.
+    Vcvs {
+        /// Output terminals.
+        nodes: [String; 2],
+        /// Controlling node pair.
+        control: [String; 2],
+        /// Voltage gain.
+        gain: f64,
+    },
+    /// Voltage-controlled current source: `gain·(v(c0) − v(c1))` flows from n0 to n1.
+    Vccs {
+        /// Output terminals.
+        nodes: [String; 2],
+        /// Controlling node pair.
+        control: [String; 2],
+        /// Transconductance in S.
+        gain: f64,
+    },
+    /// Current-controlled current source: `gain·i(sense)` flows from n0 to n1.
+    Cccs {
+        /// Output terminals.
+        nodes: [String; 2],
+        /// Part whose current controls the source.
+        sense: String,
+        /// Current gain.
+        gain: f64,
+    },
+    /// Current-controlled voltage source: `v(n0) − v(n1) = gain·i(sense)`.
+    Ccvs {
+        /// Output terminals.
+        nodes: [String; 2],
+        /// Part whose current controls the source.
+        sense: String,
+        /// Transresistance in Ω.
+        gain: f64,
+    },
+}
+
+/// A complete netlist problem: parts, stimulus and observed output.
+#[derive(Debug, Clone, PartialEq)]
+pub struct NetlistSpec {
+    /// Node the stimulus drives.
+    pub input: String,
+    /// Observed quantity.
+    pub output: Output,
+    /// Source resistance in Ω: series for a voltage stimulus, parallel for a current one.
+    pub source_resistance: Option<f64>,
+    /// Voltage or current stimulus.
+    pub stimulus: Stimulus,
+    /// The parts.
+    pub parts: Vec<Part>,
+}
+
+/// A single-input single-output state space `x' = A x + B u`, `y = C x + D u`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StateSpace {
+    /// State matrix (n × n).
+    pub a: DMatrix<f64>,
+    /// Input vector (n).
+    pub b: DVector<f64>,
+    /// Output row, stored as a vector (n).
+    pub c: DVector<f64>,
+    /// Direct feed-through.
+    pub d: f64,
+}
+
+impl StateSpace {
+    /// Order (number of states).
+    pub fn order(&self) -> usize {
+        self.a.nrows()
+    }
+}
+
+/// A netlist that cannot be analysed, with the part or node to blame.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("{}'{}': {}", line_prefix(*.line), .culprit, .message)]
+pub struct NetlistError {
+    /// Source line of the culprit part, when there is one.
+    pub line: Option<usize>,
+    /// Name of the part or node to blame.
+    pub culprit: String,
+    /// What is wrong.
+    pub message: String,
+}
+
+fn line_prefix(line: Option<usize>) -> String {
+    line.map(|l| format!("line {l}: ")).unwrap_or_default()
+}
+
+impl NetlistError {
+    pub(crate) fn new(line: Option<usize>, culprit: &str, message: impl Into<String>) -> Self {
+        NetlistError {
+            line,
+            culprit: culprit.to_string(),
+            message: message.into(),
+        }
+    }
+}
+
+/// True for the ground node names `0` and `gnd` (any case).
+pub fn is_ground(node: &str) -> bool {
+    node == "0" || node.eq_ignore_ascii_case("gnd")
+}
+
+/// Reduce a netlist to a state space whose order is the number of independent energy
+/// stores.
+///
+/// Errors for every diagnostic of the module, and when the network function is improper
+/// (the output contains a derivative of the input; [`analyse`] accepts that case).
+pub fn state_space(spec: &NetlistSpec) -> Result<StateSpace, NetlistError> {
+    let reduced = reduce_spec(spec)?;
+    if reduced.improper.iter().any(|&q| q != 0.0) {
+        return Err(NetlistError::new(
+            None,
+            &check::output_name(&spec.output),
+            "the network function is improper (the output contains a derivative of the \
+             stimulus); it has no proper state space",
+        ));
+    }
+    Ok(reduced.ss)
+}
+
+/// Analyse a netlist into modes: poles from the eigenvalues of the reduced `A`, residues
+/// (Laurent coefficients) from its eigenvectors or, for clusters, from contour integrals.
+///
+/// Modes whose residues are negligible (uncontrollable or unobservable energy stores, e.g.
+/// an island of parts the stimulus never reaches) are dropped: they do not appear in H(s).
+pub fn analyse(spec: &NetlistSpec) -> Result<Network, NetlistError> {
+    let reduced = reduce_spec(spec)?;
+    let out = check::output_name(&spec.output);
+    let net = modes::network(&reduced.ss, reduced.improper)
+        .map_err(|m| NetlistError::new(None, &out, m))?;
+    if net.modes.is_empty() {
+        return Err(NetlistError::new(
+            None,
+            &out,
+            "H(s) has no poles: the output does not depend on any energy store",
+        ));
+    }
+    if net.modes.iter().all(|m| m.pole.norm() == 0.0) {
+        return Err(NetlistError::new(
+            None,
+            &out,
+            "every pole is at s = 0: there is no time scale to size a pulse against",
+        ));
+    }
+    Ok(net)
+}
+
+/// Reduced state space plus the polynomial part beyond D (`improper[k−1]` multiplies s^k).
+pub(crate) struct Reduced {
+    pub ss: StateSpace,
+    pub improper: Vec<f64>,
+}
+
+fn reduce_spec(spec: &NetlistSpec) -> Result<Reduced, NetlistError> {
+    let circuit = check::validate(spec)?;
+    let desc = mna::assemble(spec, &circuit);
+    reduce::reduce(&desc).map_err(|e| match e {
+        reduce::ReduceError::Singular { right, left } => {
+            check::explain_singular(spec, &circuit, &desc.labels, &right, &left)
+        }
+        reduce::ReduceError::Numerical(m) => {
+            NetlistError::new(None, &check::output_name(&spec.output), m)
+        }
+    })
+}

@@ -1,0 +1,179 @@
+//! The bench sections: `[generator]`, `[capture]`, `[limits]`.
+
+use super::{DriveKind, Qty, RawScenario, Reader, SQty, ScenarioError};
+use crate::bench::{Bench, Capture, Generator, Limits, LoadSetting};
+use crate::units::Dim;
+use serde::Deserialize;
+use toml::Spanned;
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawGenerator {
+    max_amplitude: Option<SQty>,
+    min_width: Option<SQty>,
+    min_edge: Option<SQty>,
+    max_edge: Option<SQty>,
+    time_step: Option<SQty>,
+    max_period: Option<SQty>,
+    output_resistance: Option<SQty>,
+    load_setting: Option<SQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawCapture {
+    noise: Option<SQty>,
+    max_sample_rate: Option<SQty>,
+    max_points: Option<SQty>,
+    max_averages: Option<SQty>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawLimits {
+    max_input: Option<SQty>,
+    max_output: Option<SQty>,
+}
+
+fn opt(rd: &Reader, q: &Option<SQty>, key: &str, dim: Dim) -> Result<Option<f64>, ScenarioError> {
+    q.as_ref().map(|q| rd.positive(q, key, dim)).transpose()
+}
+
+/// Output quantities may be volts or amperes (or a plain number); accept either symbol.
+fn output_quantity(rd: &Reader, q: &Option<SQty>, key: &str) -> Result<Option<f64>, ScenarioError> {
+    let Some(q) = q else { return Ok(None) };
+    rd.positive(q, key, Dim::Voltage)
+        .or_else(|_| rd.positive(q, key, Dim::Current))
+        .map(Some)
+}
+
+fn load_setting(rd: &Reader, q: &SQty) -> Result<LoadSetting, ScenarioError> {
+    let text = match q.get_ref() {
+        Qty::Int(i) => i.to_string(),
+        Qty::Float(f) => f.to_string(),
+        Qty::Text(t) => t.trim().to_string(),
+    };
+    let norm = text.to_lowercase().replace([' ', '_'], "");
+    match norm.as_str() {
+        "high-z" | "highz" | "hi-z" | "hiz" | "open" => Ok(LoadSetting::HighZ),
+        "50" | "50.0" | "50ω" | "50ohm" => Ok(LoadSetting::Fifty),
+        _ => Err(rd.err(
+            Some(&q.span()),
+            "generator.load_setting",
+            format!("\"{text}\" is not a load setting; use \"high-z\" or \"50\""),
+        )),
+    }
+}
+
+/// Read the bench sections.
+pub(crate) fn bench(
+    rd: &Reader,
+    raw: &RawScenario,
+    drive: DriveKind,
+) -> Result<Bench, ScenarioError> {
+    let generator = raw
+        .generator
+        .as_ref()
+        .map(
+            |g: &Spanned<RawGenerator>| -> Result<Generator, ScenarioError> {
+                let g = g.get_ref();
+                let gen_ = Generator {
+                    max_amplitude: opt(
+                        rd,
+                        &g.max_amplitude,
+                        "generator.max_amplitude",
+                        drive.dim(),
+                    )?,
+                    min_width: opt(rd, &g.min_width, "generator.min_width", Dim::Time)?,
+                    min_edge: opt(rd, &g.min_edge, "generator.min_edge", Dim::Time)?,
+                    max_edge: opt(rd, &g.max_edge, "generator.max_edge", Dim::Time)?,
+                    time_step: opt(rd, &g.time_step, "generator.time_step", Dim::Time)?,
+                    max_period: opt(rd, &g.max_period, "generator.max_period", Dim::Time)?,
+                    output_resistance: g
+                        .output_resistance
+                        .as_ref()
+                        .map(|q| {
+                            let v = rd.number(q, "generator.output_resistance", Dim::Resistance)?;
+                            if v < 0.0 {
+                                return Err(rd.err(
+                                    Some(&q.span()),
+                                    "generator.output_resistance",
+                                    "must not be negative",
+                                ));
+                            }
+                            Ok(v)
+                        })
+                        .transpose()?,
+                    load_setting: g
+                        .load_setting
+                        .as_ref()
+                        .map(|q| load_setting(rd, q))
+                        .transpose()?,
+                };
+                if let (Some(lo), Some(hi), Some(q)) = (gen_.min_edge, gen_.max_edge, &g.max_edge) {
+                    if lo > hi {
+                        return Err(rd.err(
+                            Some(&q.span()),
+                            "generator.max_edge",
+                            "is shorter than min_edge",
+                        ));
+                    }
+                }
+                Ok(gen_)
+            },
+        )
+        .transpose()?;
+    let capture = raw
+        .capture
+        .as_ref()
+        .map(|c| -> Result<Capture, ScenarioError> {
+            let c = c.get_ref();
+            let cap = Capture {
+                noise: output_quantity(rd, &c.noise, "capture.noise")?,
+                max_sample_rate: opt(
+                    rd,
+                    &c.max_sample_rate,
+                    "capture.max_sample_rate",
+                    Dim::Frequency,
+                )?,
+                max_points: opt(rd, &c.max_points, "capture.max_points", Dim::Number)?,
+                max_averages: opt(rd, &c.max_averages, "capture.max_averages", Dim::Number)?,
+            };
+            if let (Some(p), Some(q)) = (cap.max_points, &c.max_points) {
+                if p < 2.0 {
+                    return Err(rd.err(
+                        Some(&q.span()),
+                        "capture.max_points",
+                        "must be at least 2",
+                    ));
+                }
+            }
+            if let (Some(a), Some(q)) = (cap.max_averages, &c.max_averages) {
+                if a < 1.0 {
+                    return Err(rd.err(
+                        Some(&q.span()),
+                        "capture.max_averages",
+                        "must be at least 1",
+                    ));
+                }
+            }
+            Ok(cap)
+        })
+        .transpose()?;
+    let limits = raw
+        .limits
+        .as_ref()
+        .map(|l| -> Result<Limits, ScenarioError> {
+            let l = l.get_ref();
+            Ok(Limits {
+                max_input: opt(rd, &l.max_input, "limits.max_input", drive.dim())?,
+                max_output: output_quantity(rd, &l.max_output, "limits.max_output")?,
+            })
+        })
+        .transpose()?;
+    Ok(Bench {
+        generator,
+        capture,
+        limits,
+    })
+}
