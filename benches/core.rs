@@ -1,6 +1,7 @@
 //! Speed targets for the core (measured here, never in timed unit tests):
 //! - an order-20 pulse response at 10⁶ output points: target ≤ 50 ms;
-//! - the error-budget width search for order ≤ 20: target ≤ 20 ms.
+//! - the error-budget width search for order ≤ 20: target ≤ 20 ms;
+//! - a 1 000-part RC ladder analysed and planned: target < 1 s.
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use num_complex::Complex64;
@@ -60,9 +61,25 @@ fn bench(c: &mut Criterion) {
     }
 }
 
+/// Target: a 1 000-part RC ladder (order 500) is analysed and planned in under 1 s on 2 cores.
+fn ladder(c: &mut Criterion) {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/benches/ladder-1000.toml");
+    c.bench_function("1000-part RC ladder: parse, analyse, plan", |b| {
+        b.iter(|| {
+            let sc = pulseplan::scenario::load(std::path::Path::new(path)).expect("bench scenario");
+            black_box(pulseplan::plan::plan(&sc))
+        })
+    });
+}
+
 criterion_group! {
     name = benches;
     config = Criterion::default().sample_size(20);
     targets = bench
 }
-criterion_main!(benches);
+criterion_group! {
+    name = slow;
+    config = Criterion::default().sample_size(10);
+    targets = ladder
+}
+criterion_main!(benches, slow);

@@ -14,4 +14,5 @@ pub mod pulse;
 pub mod report;
 pub mod response;
 pub mod scenario;
+pub mod tolerance;
 pub mod units;

@@ -57,35 +57,11 @@ pub fn prepare(net: &Network, settings: &PlanSettings) -> Prepared {
     let estimator = Estimator::new(net, &shape);
     let tau_fast = net.tau_fast();
     let tau_slow = net.tau_slow();
-    let dominance: Vec<f64> = net.modes.iter().map(|m| m.dominance()).collect();
-    let total: f64 = dominance.iter().filter(|d| d.is_finite()).sum();
-    let shares: Vec<f64> = dominance
-        .iter()
-        .map(|&d| {
-            if d.is_finite() && total > 0.0 {
-                d / total
-            } else {
-                1.0
-            }
-        })
-        .collect();
-    let top = shares.iter().copied().fold(0.0, f64::max);
-    let significant: Vec<bool> = shares
-        .iter()
-        .map(|&s| !net.residues_known || s >= settings.significance || s == top)
-        .collect();
-    let fastest_significant = net
-        .modes
-        .iter()
-        .zip(&significant)
-        .filter(|(_, s)| **s)
-        .map(|(m, _)| m.natural_frequency())
-        .fold(0.0, f64::max);
-    let tau_plan = if fastest_significant > 0.0 {
-        1.0 / fastest_significant
-    } else {
-        tau_fast
-    };
+    let crate::network::Significance {
+        shares,
+        significant,
+        tau: tau_plan,
+    } = net.significance(settings.significance);
     let mut warnings = Vec::new();
     let k = settings.settle_multiple;
     let (run, run_basis) = if net.stable() {
@@ -359,28 +335,94 @@ pub struct PlanOutcome {
     pub widening: Option<f64>,
     /// The bench's view: limits, noise, period, capture.
     pub bench: BenchPlan,
+    /// Tolerance spread, for netlists whose parts carry tolerances.
+    pub tolerance: Option<crate::tolerance::ToleranceReport>,
+    /// How tolerances narrowed the width and stretched the run.
+    pub robust: Option<Robust>,
+    /// Plain notes about the plan.
+    pub notes: Vec<String>,
     /// Warnings.
     pub warnings: Vec<Warning>,
 }
 
 /// Plan a pulse for the scenario.
 pub fn plan(sc: &Scenario) -> PlanOutcome {
-    let s = &sc.plan;
-    let prep = prepare(&sc.network, s);
-    let est = &prep.estimator;
+    plan_with_progress(sc, &|_, _| {})
+}
+
+/// Width a prepared network allows: the budget search, or the rule of thumb without a budget.
+fn allowed_width(prep: &Prepared, s: &PlanSettings) -> (Option<Target>, f64) {
     let rule_width = prep.tau_plan / s.width_ratio;
-    let rule = tied_pulse(sc.area, rule_width, s.edge_ratio);
-    let rule_estimate = est.estimate(&rule, prep.run);
     let target = s
         .target_error
-        .map(|budget| widest_within(est, &prep, s, budget));
-    let (pulse, widening) = match target {
-        Some(Target::Met { width, .. } | Target::Capped { width, .. }) => (
-            tied_pulse(sc.area, width, s.edge_ratio),
-            Some(width / rule_width),
-        ),
-        _ => (rule, None),
+        .map(|budget| widest_within(&prep.estimator, prep, s, budget));
+    let width = match target {
+        Some(Target::Met { width, .. } | Target::Capped { width, .. }) => width,
+        _ => rule_width,
     };
+    (target, width)
+}
+
+/// Plan a pulse, reporting progress of long steps (tolerance cases) as (done, total).
+pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync)) -> PlanOutcome {
+    let s = &sc.plan;
+    let mut prep = prepare(&sc.network, s);
+    let rule_width = prep.tau_plan / s.width_ratio;
+    let rule = tied_pulse(sc.area, rule_width, s.edge_ratio);
+    let rule_estimate = prep.estimator.estimate(&rule, prep.run);
+    let (target, mut width) = allowed_width(&prep, s);
+    let widening = matches!(target, Some(Target::Met { .. } | Target::Capped { .. }))
+        .then_some(width / rule_width);
+    // Tolerances: the width must suit the fastest case, the run must cover the slowest.
+    let mut tol_warnings = Vec::new();
+    let mut notes = Vec::new();
+    let tolerance = match &sc.network_spec {
+        crate::network::NetworkSpec::Netlist(spec) => {
+            let parts = crate::tolerance::toleranced_parts(spec);
+            let total = match s.samples {
+                Some(n) => n,
+                None if parts <= crate::tolerance::MAX_CORNER_PARTS => 1 << parts,
+                None => {
+                    notes.push(format!(
+                        "{parts} parts carry tolerances, too many for corners: give --samples N for a Monte Carlo spread"
+                    ));
+                    0
+                }
+            };
+            crate::tolerance::analyse(spec, s.significance, s.samples, s.seed, &|k| {
+                progress(k, total)
+            })
+            .ok()
+            .flatten()
+        }
+        _ => None,
+    };
+    let mut robust = None;
+    if let Some(rep) = &tolerance {
+        let fast = prepare(&rep.fastest, s);
+        let slow = prepare(&rep.slowest, s);
+        let (_, w_fast) = allowed_width(&fast, s);
+        let nominal = (width, prep.run);
+        width = width.min(w_fast);
+        prep.run = prep.run.max(slow.run).max(fast.run);
+        robust = Some(Robust {
+            nominal_width: nominal.0,
+            width,
+            nominal_run: nominal.1,
+            run: prep.run,
+        });
+        if rep.failures > 0 {
+            tol_warnings.push(warn(
+                "tolerance-cases-failed",
+                format!(
+                    "{} tolerance case(s) could not be analysed (the circuit became singular there); the spread covers the rest",
+                    rep.failures
+                ),
+            ));
+        }
+    }
+    let pulse = tied_pulse(sc.area, width, s.edge_ratio);
+    let est = &prep.estimator;
     let mut bench = practical(sc, &prep, &pulse, true);
     let mut ideal_pulse = pulse;
     // With output noise, the plan takes the width that needs the fewest averages to meet the
@@ -405,6 +447,7 @@ pub fn plan(sc: &Scenario) -> PlanOutcome {
     let pulse = bench.pulse;
     let estimate = bench.estimate.clone();
     let mut warnings = prep.warnings.clone();
+    warnings.extend(tol_warnings);
     if let Some(Target::Unreachable { width, value }) = &target {
         warnings.push(warn(
             "budget-unreachable",
@@ -429,8 +472,24 @@ pub fn plan(sc: &Scenario) -> PlanOutcome {
         estimate,
         widening,
         bench,
+        tolerance,
+        robust,
+        notes,
         warnings,
     }
+}
+
+/// How tolerances changed the plan.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Robust {
+    /// Width the nominal network allows, s.
+    pub nominal_width: f64,
+    /// Width every examined case allows, s.
+    pub width: f64,
+    /// Run the nominal network needs, s.
+    pub nominal_run: f64,
+    /// Run covering the slowest case, s.
+    pub run: f64,
 }
 
 /// The evaluation of the scenario's own pulse.

@@ -120,6 +120,17 @@ impl Mode {
     }
 }
 
+/// Which modes are significant at the output.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Significance {
+    /// Each mode's share of Σ dominance, aligned with `Network::modes`.
+    pub shares: Vec<f64>,
+    /// Whether each mode is significant.
+    pub significant: Vec<bool>,
+    /// Fastest significant time scale 1/|p|, s.
+    pub tau: f64,
+}
+
 /// Which scenario form a network came from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Form {
@@ -246,6 +257,46 @@ impl Network {
     /// True when H is improper (numerator degree above the denominator's).
     pub fn is_improper(&self) -> bool {
         self.improper.iter().any(|&q| q != 0.0)
+    }
+
+    /// Which modes matter at the output: each mode's share of Σ dominance (see
+    /// [`Mode::dominance`]); a mode is significant when its share reaches `threshold` (the
+    /// largest mode always is, and every mode is when residues are unknown).
+    pub fn significance(&self, threshold: f64) -> Significance {
+        let dominance: Vec<f64> = self.modes.iter().map(Mode::dominance).collect();
+        let total: f64 = dominance.iter().filter(|d| d.is_finite()).sum();
+        let shares: Vec<f64> = dominance
+            .iter()
+            .map(|&d| {
+                if d.is_finite() && total > 0.0 {
+                    d / total
+                } else {
+                    1.0
+                }
+            })
+            .collect();
+        let top = shares.iter().copied().fold(0.0, f64::max);
+        let significant: Vec<bool> = shares
+            .iter()
+            .map(|&s| !self.residues_known || s >= threshold || s == top)
+            .collect();
+        let fastest = self
+            .modes
+            .iter()
+            .zip(&significant)
+            .filter(|(_, s)| **s)
+            .map(|(m, _)| m.natural_frequency())
+            .fold(0.0, f64::max);
+        let tau = if fastest > 0.0 {
+            1.0 / fastest
+        } else {
+            self.tau_fast()
+        };
+        Significance {
+            shares,
+            significant,
+            tau,
+        }
     }
 
     /// Order (number of poles counted with multiplicity).

@@ -193,6 +193,37 @@ pub fn bench_json(b: &BenchPlan) -> Value {
     })
 }
 
+/// The tolerance part of the JSON.
+pub fn tolerance_json(out: &PlanOutcome) -> Value {
+    let Some(t) = &out.tolerance else {
+        return Value::Null;
+    };
+    let spread =
+        |s: &crate::tolerance::Spread| json!({"nominal": s.nominal, "min": s.min, "max": s.max});
+    let method = match t.method {
+        crate::tolerance::Method::Corners { count } => json!({"kind": "corners", "cases": count}),
+        crate::tolerance::Method::MonteCarlo { samples, seed } => {
+            json!({"kind": "monte-carlo", "cases": samples, "seed": seed, "distribution": "uniform within each tolerance band"})
+        }
+    };
+    json!({
+        "method": method,
+        "tau_fast_significant": spread(&t.tau_fast),
+        "tau_slow": spread(&t.tau_slow),
+        "h0_plus": spread(&t.h0),
+        "failures": t.failures,
+        "sensitivity": t.sensitivities.iter().map(|s| json!({
+            "part": s.part, "tolerance": s.tolerance,
+            "d_tau_fast": s.tau_fast, "d_tau_slow": s.tau_slow, "d_h0_plus": s.h0,
+            "influence": s.influence(),
+        })).collect::<Vec<_>>(),
+        "robust": out.robust.map(|r| json!({
+            "nominal_width": r.nominal_width, "width": r.width,
+            "nominal_run": r.nominal_run, "run": r.run,
+        })),
+    })
+}
+
 /// JSON for `plan`.
 pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
     let target = match &out.target {
@@ -214,6 +245,8 @@ pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
         "pulse": pulse_json(&out.pulse, out.prep.run),
         "error": error_json(&out.estimate),
         "bench": bench_json(&out.bench),
+        "tolerance": tolerance_json(out),
+        "notes": out.notes,
         "plan": {
             "ideal_pulse": pulse_json(&out.ideal_pulse, out.prep.run),
             "rule_of_thumb": {

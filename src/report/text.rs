@@ -337,6 +337,72 @@ fn bench_text(s: &mut String, b: &BenchPlan, sc: &Scenario) {
     let _ = writeln!(s);
 }
 
+fn tolerance_text(s: &mut String, out: &PlanOutcome) {
+    let Some(t) = &out.tolerance else { return };
+    let how = match t.method {
+        crate::tolerance::Method::Corners { count } => format!("{count} corners"),
+        crate::tolerance::Method::MonteCarlo { samples, seed } => {
+            format!("{samples} Monte Carlo samples, uniform within each band, seed {seed}")
+        }
+    };
+    let _ = writeln!(s, "Tolerances ({how})");
+    let row = |s: &mut String, name: &str, sp: &crate::tolerance::Spread, dim: Dim| {
+        let _ = writeln!(
+            s,
+            "  {name:<28} nominal {:>12}   range {} … {}",
+            eng(sp.nominal, dim),
+            eng(sp.min, dim),
+            eng(sp.max, dim)
+        );
+    };
+    row(s, "fastest significant τ", &t.tau_fast, Dim::Time);
+    row(s, "slowest time constant", &t.tau_slow, Dim::Time);
+    if t.h0.nominal != 0.0 {
+        let _ = writeln!(
+            s,
+            "  {:<28} nominal {:>12}   range {} … {}  (/s)",
+            "h(0⁺)",
+            value_text(t.h0.nominal),
+            value_text(t.h0.min),
+            value_text(t.h0.max)
+        );
+    }
+    if t.sensitivities.is_empty() {
+        let _ = writeln!(
+            s,
+            "  per-part sensitivities need at least 10 samples per toleranced part"
+        );
+    } else {
+        let _ = writeln!(
+            s,
+            "  parts that dominate (normalised sensitivity ∂ln q/∂ln x; influence = max|S| × tolerance):"
+        );
+    }
+    for sens in t.sensitivities.iter().take(6) {
+        let _ = writeln!(
+            s,
+            "    {:<10} ±{:<8} τ_fast {:+.3}  τ_slow {:+.3}  h(0⁺) {:+.3}  influence {}",
+            sens.part,
+            percent_unsigned(sens.tolerance),
+            sens.tau_fast,
+            sens.tau_slow,
+            sens.h0,
+            percent_unsigned(sens.influence())
+        );
+    }
+    if let Some(r) = out.robust {
+        let _ = writeln!(
+            s,
+            "  robust plan: width {} (nominal network alone: {}), run {} (nominal: {})",
+            eng(r.width, Dim::Time),
+            eng(r.nominal_width, Dim::Time),
+            eng(r.run, Dim::Time),
+            eng(r.nominal_run, Dim::Time)
+        );
+    }
+    let _ = writeln!(s);
+}
+
 fn cursors_text(s: &mut String, cs: &[Cursor]) {
     if cs.is_empty() {
         return;
@@ -453,6 +519,13 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
     let _ = writeln!(s, "  run length basis: {}", out.prep.run_basis);
     let _ = writeln!(s);
     bench_text(&mut s, &out.bench, sc);
+    tolerance_text(&mut s, out);
+    for n in &out.notes {
+        let _ = writeln!(s, "Note: {n}");
+    }
+    if !out.notes.is_empty() {
+        let _ = writeln!(s);
+    }
     error_text(&mut s, &out.estimate);
     let _ = writeln!(s);
     cursors_text(&mut s, cs);

@@ -92,6 +92,10 @@ pub struct PlanSettings {
     pub min_width_ratio: f64,
     /// A mode whose share of Σ dominance is below this does not set the pulse's time scale.
     pub significance: f64,
+    /// Monte Carlo samples for tolerances (None: corners when parts are few).
+    pub samples: Option<usize>,
+    /// Seed of the Monte Carlo draw.
+    pub seed: u64,
     /// Run length in slowest time constants.
     pub settle_multiple: f64,
 }
@@ -108,6 +112,8 @@ impl Default for PlanSettings {
             min_width_ratio: 10.0,
             // Modes under 1 % of the response's L1 bound are not significant (our choice).
             significance: 0.01,
+            samples: None,
+            seed: 1,
             settle_multiple: 5.0,
         }
     }
@@ -205,6 +211,8 @@ struct RawPlan {
     edge_ratio: Option<SQty>,
     min_width_ratio: Option<SQty>,
     significance: Option<SQty>,
+    samples: Option<SQty>,
+    seed: Option<SQty>,
     settle_multiple: Option<SQty>,
 }
 
@@ -634,6 +642,16 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
     }
     if let Some(q) = &p.width_ratio {
         s.width_ratio = rd.positive(q, "plan.width_ratio", Dim::Number)?;
+    }
+    if let Some(q) = &p.samples {
+        s.samples = Some(rd.positive(q, "plan.samples", Dim::Number)? as usize);
+    }
+    if let Some(q) = &p.seed {
+        let v = rd.number(q, "plan.seed", Dim::Number)?;
+        if v < 0.0 || v.fract() != 0.0 {
+            return Err(rd.err(Some(&q.span()), "plan.seed", "must be a whole number ≥ 0"));
+        }
+        s.seed = v as u64;
     }
     if let Some(q) = &p.significance {
         let v = rd.number(q, "plan.significance", Dim::Fraction)?;

@@ -1,0 +1,437 @@
+//! Part tolerances: the spread of the fastest and slowest time scales and of h(0⁺) over the
+//! corners (few parts) or a seeded Monte Carlo sample, which parts dominate it, and the
+//! extreme networks a robust plan must satisfy.
+
+use crate::netlist::{self, NetlistError, NetlistSpec, Part, PartKind};
+use crate::network::Network;
+
+/// At most this many toleranced parts are enumerated corner by corner (2ⁿ analyses).
+pub const MAX_CORNER_PARTS: usize = 10;
+/// Above this many toleranced parts, sensitivities come from the Monte Carlo sample
+/// (regression slopes) instead of two extra analyses per part.
+pub const MAX_DIFFERENCED_PARTS: usize = 40;
+/// Relative step of the central differences behind the sensitivities.
+const SENSITIVITY_STEP: f64 = 1e-4;
+
+/// Nominal value and range over the cases examined.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Spread {
+    /// Value with every part nominal.
+    pub nominal: f64,
+    /// Smallest over the cases.
+    pub min: f64,
+    /// Largest over the cases.
+    pub max: f64,
+}
+
+impl Spread {
+    fn new(nominal: f64) -> Spread {
+        Spread {
+            nominal,
+            min: nominal,
+            max: nominal,
+        }
+    }
+
+    fn add(&mut self, v: f64) {
+        if v.is_finite() {
+            self.min = self.min.min(v);
+            self.max = self.max.max(v);
+        }
+    }
+}
+
+/// Normalised sensitivities (∂ln q/∂ln x) of the three quantities to one part.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Sensitivity {
+    /// Part name.
+    pub part: String,
+    /// Its tolerance (fraction).
+    pub tolerance: f64,
+    /// ∂ln τ_fast/∂ln x (fastest significant time scale).
+    pub tau_fast: f64,
+    /// ∂ln τ_slow/∂ln x.
+    pub tau_slow: f64,
+    /// ∂ln |h(0⁺)|/∂ln x (0 when h(0⁺) = 0).
+    pub h0: f64,
+}
+
+impl Sensitivity {
+    /// The largest share of spread this part can cause: max |S|·tolerance.
+    pub fn influence(&self) -> f64 {
+        self.tau_fast
+            .abs()
+            .max(self.tau_slow.abs())
+            .max(self.h0.abs())
+            * self.tolerance
+    }
+}
+
+/// How the cases were chosen.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Method {
+    /// Every combination of each toleranced part at its two band edges.
+    Corners {
+        /// Number of corners.
+        count: usize,
+    },
+    /// Values drawn uniformly within each band (seeded, reproducible).
+    MonteCarlo {
+        /// Number of samples.
+        samples: usize,
+        /// Seed.
+        seed: u64,
+    },
+}
+
+/// The spread and the extreme cases.
+#[derive(Debug, Clone)]
+pub struct ToleranceReport {
+    /// How the cases were chosen.
+    pub method: Method,
+    /// Fastest significant time scale, s.
+    pub tau_fast: Spread,
+    /// Slowest time constant, s.
+    pub tau_slow: Spread,
+    /// h(0⁺).
+    pub h0: Spread,
+    /// Per-part sensitivities, most influential first.
+    pub sensitivities: Vec<Sensitivity>,
+    /// The case with the fastest significant time scale (the width must suit it).
+    pub fastest: Network,
+    /// The case with the slowest time constant (the run must cover it).
+    pub slowest: Network,
+    /// Cases that could not be analysed (e.g. a corner that makes the circuit singular).
+    pub failures: usize,
+}
+
+/// The three quantities of one case.
+#[derive(Debug, Clone, Copy)]
+struct Figures {
+    tau_fast: f64,
+    tau_slow: f64,
+    h0: f64,
+}
+
+fn figures(net: &Network, threshold: f64) -> Figures {
+    Figures {
+        tau_fast: net.significance(threshold).tau,
+        tau_slow: net.tau_slow().unwrap_or(f64::NAN),
+        h0: net.h0_plus(),
+    }
+}
+
+/// The part's main value scaled by a factor (R, C, L values; coupling k; source gains).
+fn scaled(part: &Part, factor: f64) -> Part {
+    let mut p = part.clone();
+    match &mut p.kind {
+        PartKind::Resistor { value, .. }
+        | PartKind::Capacitor { value, .. }
+        | PartKind::Inductor { value, .. } => *value *= factor,
+        PartKind::Coupling { k, .. } => *k = (*k * factor).clamp(-0.999_999, 0.999_999),
+        PartKind::Vcvs { gain, .. }
+        | PartKind::Vccs { gain, .. }
+        | PartKind::Cccs { gain, .. }
+        | PartKind::Ccvs { gain, .. } => *gain *= factor,
+        PartKind::OpAmp { gain, .. } => {
+            if let Some(g) = gain {
+                *g *= factor;
+            }
+        }
+    }
+    p
+}
+
+fn with_factors(spec: &NetlistSpec, toleranced: &[usize], factors: &[f64]) -> NetlistSpec {
+    let mut s = spec.clone();
+    for (&i, &f) in toleranced.iter().zip(factors) {
+        s.parts[i] = scaled(&spec.parts[i], f);
+    }
+    s
+}
+
+/// SplitMix64 (Steele, Lea & Flood 2014): a small, well-mixed generator; one stream per
+/// sample index so results do not depend on how samples are split across threads.
+fn uniform(seed: u64, index: u64, k: u64) -> f64 {
+    let mut z = seed
+        .wrapping_add(index.wrapping_mul(0x9E37_79B9_7F4A_7C15))
+        .wrapping_add(k.wrapping_mul(0xD1B5_4A32_D192_ED03));
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^= z >> 31;
+    (z >> 11) as f64 / (1u64 << 53) as f64
+}
+
+/// Run `f` over 0..n on every core (std scoped threads), keeping the results in order.
+fn parallel_map<T: Send>(n: usize, f: &(dyn Fn(usize) -> T + Sync)) -> Vec<T> {
+    let threads = std::thread::available_parallelism()
+        .map_or(1, |c| c.get())
+        .min(n.max(1));
+    let chunk = n.div_ceil(threads);
+    std::thread::scope(|scope| {
+        let handles: Vec<_> = (0..threads)
+            .map(|t| {
+                scope.spawn(move || {
+                    (t * chunk..((t + 1) * chunk).min(n))
+                        .map(f)
+                        .collect::<Vec<T>>()
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .flat_map(|h| h.join().expect("a tolerance worker panicked"))
+            .collect()
+    })
+}
+
+/// Number of toleranced parts in a netlist.
+pub fn toleranced_parts(spec: &NetlistSpec) -> usize {
+    spec.parts
+        .iter()
+        .filter(|p| p.tolerance.is_some_and(|t| t > 0.0))
+        .count()
+}
+
+/// Analyse the tolerances of a netlist. `None` when no part carries a tolerance, or when
+/// there are too many parts for corners and no Monte Carlo sample count was given.
+///
+/// Corners are used when at most [`MAX_CORNER_PARTS`] parts are toleranced and no sample
+/// count is asked for; otherwise `samples` Monte Carlo cases with values uniform within each
+/// band. `progress` is called with the number of cases finished.
+pub fn analyse(
+    spec: &NetlistSpec,
+    threshold: f64,
+    samples: Option<usize>,
+    seed: u64,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<Option<ToleranceReport>, NetlistError> {
+    let toleranced: Vec<usize> = spec
+        .parts
+        .iter()
+        .enumerate()
+        .filter(|(_, p)| p.tolerance.is_some_and(|t| t > 0.0))
+        .map(|(i, _)| i)
+        .collect();
+    if toleranced.is_empty() || (samples.is_none() && toleranced.len() > MAX_CORNER_PARTS) {
+        return Ok(None);
+    }
+    let tols: Vec<f64> = toleranced
+        .iter()
+        .map(|&i| spec.parts[i].tolerance.unwrap_or(0.0))
+        .collect();
+    let nominal_net = netlist::analyse(spec)?;
+    let nominal = figures(&nominal_net, threshold);
+
+    let use_corners = samples.is_none() && toleranced.len() <= MAX_CORNER_PARTS;
+    let (method, count) = if use_corners {
+        let count = 1usize << toleranced.len();
+        (Method::Corners { count }, count)
+    } else {
+        let n = samples.unwrap_or(1).max(1);
+        (Method::MonteCarlo { samples: n, seed }, n)
+    };
+    let factors_of = |case: usize| -> Vec<f64> {
+        tols.iter()
+            .enumerate()
+            .map(|(k, &t)| {
+                if use_corners {
+                    if case >> k & 1 == 1 { 1.0 + t } else { 1.0 - t }
+                } else {
+                    1.0 + t * (2.0 * uniform(seed, case as u64, k as u64) - 1.0)
+                }
+            })
+            .collect()
+    };
+    let done = std::sync::atomic::AtomicUsize::new(0);
+    let results: Vec<Option<(Figures, usize)>> = parallel_map(count, &|case| {
+        let net = netlist::analyse(&with_factors(spec, &toleranced, &factors_of(case))).ok();
+        let n = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
+        progress(n);
+        net.map(|net| (figures(&net, threshold), case))
+    });
+    let mut tau_fast = Spread::new(nominal.tau_fast);
+    let mut tau_slow = Spread::new(nominal.tau_slow);
+    let mut h0 = Spread::new(nominal.h0);
+    let mut failures = 0;
+    let (mut fastest_case, mut slowest_case) = (None::<(f64, usize)>, None::<(f64, usize)>);
+    for r in &results {
+        match r {
+            None => failures += 1,
+            Some((f, case)) => {
+                tau_fast.add(f.tau_fast);
+                tau_slow.add(f.tau_slow);
+                h0.add(f.h0);
+                if fastest_case.is_none_or(|(t, _)| f.tau_fast < t) {
+                    fastest_case = Some((f.tau_fast, *case));
+                }
+                if f.tau_slow.is_finite() && slowest_case.is_none_or(|(t, _)| f.tau_slow > t) {
+                    slowest_case = Some((f.tau_slow, *case));
+                }
+            }
+        }
+    }
+    let net_of = |case: Option<(f64, usize)>| -> Network {
+        case.and_then(|(_, c)| {
+            netlist::analyse(&with_factors(spec, &toleranced, &factors_of(c))).ok()
+        })
+        .unwrap_or_else(|| nominal_net.clone())
+    };
+    let fastest = net_of(fastest_case);
+    let slowest = net_of(slowest_case);
+
+    // Sensitivities by central differences, one part at a time.
+    let rel = |a: f64, b: f64, base: f64| {
+        if base == 0.0 || !base.is_finite() {
+            0.0
+        } else {
+            (a - b) / (2.0 * SENSITIVITY_STEP * base)
+        }
+    };
+    let mut sensitivities: Vec<Sensitivity> =
+        if use_corners || toleranced.len() <= MAX_DIFFERENCED_PARTS {
+            parallel_map(toleranced.len(), &|k| {
+                let i = toleranced[k];
+                let fig = |f: f64| {
+                    let mut s = spec.clone();
+                    s.parts[i] = scaled(&spec.parts[i], f);
+                    netlist::analyse(&s).ok().map(|n| figures(&n, threshold))
+                };
+                let (up, down) = (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP));
+                let (up, down) = match (up, down) {
+                    (Some(u), Some(d)) => (u, d),
+                    _ => (nominal, nominal),
+                };
+                Sensitivity {
+                    part: spec.parts[i].name.clone(),
+                    tolerance: tols[k],
+                    tau_fast: rel(up.tau_fast, down.tau_fast, nominal.tau_fast),
+                    tau_slow: rel(up.tau_slow, down.tau_slow, nominal.tau_slow),
+                    h0: rel(up.h0, down.h0, nominal.h0),
+                }
+            })
+        } else {
+            // Regression slopes of ln q on ln x over the sample (independent inputs), only when the
+            // sample is large enough for them to mean something (≥ 10 cases per part).
+            let ok: Vec<(Figures, Vec<f64>)> = results
+                .iter()
+                .flatten()
+                .map(|(f, case)| (*f, factors_of(*case)))
+                .collect();
+            let slope = |k: usize, q: &dyn Fn(&Figures) -> f64| -> f64 {
+                let pts: Vec<(f64, f64)> = ok
+                    .iter()
+                    .filter_map(|(f, x)| {
+                        let v = q(f);
+                        (v.is_finite() && v > 0.0).then(|| (x[k].ln(), v.ln()))
+                    })
+                    .collect();
+                let n = pts.len() as f64;
+                if n < 3.0 {
+                    return 0.0;
+                }
+                let mx = pts.iter().map(|p| p.0).sum::<f64>() / n;
+                let my = pts.iter().map(|p| p.1).sum::<f64>() / n;
+                let sxy: f64 = pts.iter().map(|p| (p.0 - mx) * (p.1 - my)).sum();
+                let sxx: f64 = pts.iter().map(|p| (p.0 - mx).powi(2)).sum();
+                if sxx > 0.0 { sxy / sxx } else { 0.0 }
+            };
+            let enough = ok.len() >= 10 * toleranced.len();
+            (0..toleranced.len())
+                .filter(|_| enough)
+                .map(|k| Sensitivity {
+                    part: spec.parts[toleranced[k]].name.clone(),
+                    tolerance: tols[k],
+                    tau_fast: slope(k, &|f| f.tau_fast),
+                    tau_slow: slope(k, &|f| f.tau_slow),
+                    h0: slope(k, &|f| f.h0.abs()),
+                })
+                .collect()
+        };
+    sensitivities.sort_by(|a, b| b.influence().total_cmp(&a.influence()));
+    Ok(Some(ToleranceReport {
+        method,
+        tau_fast,
+        tau_slow,
+        h0,
+        sensitivities,
+        fastest,
+        slowest,
+        failures,
+    }))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::netlist::{Output, Stimulus};
+
+    fn rc(tol_r: f64, tol_c: f64) -> NetlistSpec {
+        let part = |name: &str, kind: PartKind, tol: f64| Part {
+            name: name.into(),
+            kind,
+            line: 1,
+            tolerance: Some(tol),
+        };
+        NetlistSpec {
+            input: "in".into(),
+            output: Output::Node("out".into()),
+            source_resistance: None,
+            stimulus: Stimulus::Voltage,
+            parts: vec![
+                part(
+                    "R1",
+                    PartKind::Resistor {
+                        nodes: ["in".into(), "out".into()],
+                        value: 10e3,
+                    },
+                    tol_r,
+                ),
+                part(
+                    "C1",
+                    PartKind::Capacitor {
+                        nodes: ["out".into(), "0".into()],
+                        value: 100e-9,
+                    },
+                    tol_c,
+                ),
+            ],
+        }
+    }
+
+    #[test]
+    fn rc_corners_and_sensitivities() {
+        // τ = RC (handbook closed form): the corners span (1 ± tR)(1 ± tC)·RC, and
+        // ∂ln τ/∂ln R = ∂ln τ/∂ln C = 1, ∂ln h(0⁺)/∂ln x = −1 since h(0⁺) = 1/RC.
+        let (tr, tc) = (0.01, 0.1);
+        let rep = analyse(&rc(tr, tc), 0.01, None, 1, &|_| {})
+            .unwrap()
+            .unwrap();
+        let tau = 10e3 * 100e-9;
+        assert_eq!(rep.method, Method::Corners { count: 4 });
+        assert!((rep.tau_slow.min - tau * (1.0 - tr) * (1.0 - tc)).abs() < 1e-12 * tau);
+        assert!((rep.tau_slow.max - tau * (1.0 + tr) * (1.0 + tc)).abs() < 1e-12 * tau);
+        assert_eq!(rep.sensitivities[0].part, "C1");
+        for s in &rep.sensitivities {
+            assert!((s.tau_slow - 1.0).abs() < 1e-6, "{s:?}");
+            assert!((s.h0 + 1.0).abs() < 1e-6, "{s:?}");
+        }
+        assert!((rep.slowest.tau_slow().unwrap() - rep.tau_slow.max).abs() < 1e-15);
+    }
+
+    #[test]
+    fn monte_carlo_is_seeded_and_within_the_bands() {
+        let spec = rc(0.05, 0.05);
+        let a = analyse(&spec, 0.01, Some(64), 42, &|_| {})
+            .unwrap()
+            .unwrap();
+        let b = analyse(&spec, 0.01, Some(64), 42, &|_| {})
+            .unwrap()
+            .unwrap();
+        assert_eq!(a.tau_slow, b.tau_slow);
+        let tau = 1e-3;
+        assert!(a.tau_slow.min >= tau * 0.95 * 0.95 - 1e-15);
+        assert!(a.tau_slow.max <= tau * 1.05 * 1.05 + 1e-15);
+        assert!(a.tau_slow.max > a.tau_slow.min);
+    }
+}
