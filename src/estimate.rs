@@ -219,6 +219,10 @@ pub struct FirstOrder {
     pub t0_aligned_rel: f64,
     /// The pulse's standard deviation σ about its centroid, s.
     pub sigma: f64,
+    /// Rounding level of `t0_rel` (derivatives of the modal sum amplify rounding by |p|).
+    pub t0_floor: f64,
+    /// Rounding level of `t0_aligned_rel`.
+    pub t0_aligned_floor: f64,
 }
 
 /// The full error estimate for one pulse.
@@ -238,6 +242,8 @@ pub struct ErrorEstimate {
     pub first_order: FirstOrder,
     /// For time-constant-only networks: the estimate per mode (each e^(−t/τ)).
     pub per_mode: Vec<(f64, ErrorEstimate)>,
+    /// Relative rounding level of these figures (from the size of the modal sum).
+    pub floor: f64,
 }
 
 impl ErrorEstimate {
@@ -261,6 +267,8 @@ pub struct Estimator {
     normaliser: f64,
     /// For networks with unknown residues: one estimator per mode.
     per_mode: Vec<(f64, Estimator)>,
+    /// ε·Σ|r|/normaliser: relative rounding level of figures from the modal sum.
+    floor: f64,
 }
 
 impl Estimator {
@@ -291,6 +299,20 @@ impl Estimator {
         } else {
             (NormalisedBy::Peak, shape.peak)
         };
+        // Size of the modal sum (Laurent coefficients scaled to the slowest time scale).
+        let scale_t = net.tau_slow().unwrap_or_else(|| net.tau_fast());
+        let modal_size: f64 = net
+            .modes
+            .iter()
+            .map(|m| {
+                m.residues
+                    .iter()
+                    .enumerate()
+                    .map(|(k, r)| r.norm() * scale_t.powi(k as i32))
+                    .fold(0.0, f64::max)
+            })
+            .sum();
+        let floor = f64::EPSILON * modal_size / normaliser;
         Estimator {
             modal,
             h,
@@ -298,7 +320,13 @@ impl Estimator {
             normalised_by,
             normaliser,
             per_mode,
+            floor,
         }
+    }
+
+    /// Relative rounding level of figures computed from the modal sum (ε·Σ|r|/normaliser).
+    pub fn rounding_floor(&self) -> f64 {
+        self.floor
     }
 
     /// The ideal impulse response.
@@ -437,10 +465,22 @@ impl Estimator {
         let var = pulse.variance();
         let d1 = self.h.derivative(1);
         let d2 = self.h.derivative(2);
+        // Rounding of the derivative sums Σ|pⁿ r| sets how small these can be resolved.
+        let size = |n: i32| -> f64 {
+            self.h
+                .frequencies()
+                .zip(self.h.magnitudes())
+                .map(|(w, q)| w.powi(n) * q)
+                .sum::<f64>()
+                * f64::EPSILON
+                / self.normaliser
+        };
         let first_order = FirstOrder {
             t0_rel: (d1.at(0.0) * (pulse.end() - c) + 0.5 * var * d2.at(0.0)) / self.normaliser,
             t0_aligned_rel: 0.5 * var * d2.at(pulse.end() - c) / self.normaliser,
             sigma: var.sqrt(),
+            t0_floor: size(1) * (pulse.end() - c) + size(2) * 0.5 * var,
+            t0_aligned_floor: size(2) * 0.5 * var,
         };
         ErrorEstimate {
             t0,
@@ -450,6 +490,7 @@ impl Estimator {
             normaliser: self.normaliser,
             first_order,
             per_mode: Vec::new(),
+            floor: self.floor,
         }
     }
 }
@@ -488,7 +529,10 @@ fn worst_of(per: Vec<(f64, ErrorEstimate)>) -> ErrorEstimate {
             t0_rel: t0.first_order.t0_rel,
             t0_aligned_rel: al.first_order.t0_aligned_rel,
             sigma: t0.first_order.sigma,
+            t0_floor: t0.first_order.t0_floor,
+            t0_aligned_floor: al.first_order.t0_aligned_floor,
         },
+        floor: per.iter().map(|p| p.1.floor).fold(0.0, f64::max),
         per_mode: per,
     }
 }

@@ -109,25 +109,14 @@ pub fn prepare(net: &Network, settings: &PlanSettings) -> Prepared {
     };
     // Modal sums lose digits when large residues cancel: the rounding of Σ|r| relative to the
     // normaliser bounds the relative accuracy of every figure.
-    let modal_size: f64 = net
-        .modes
-        .iter()
-        .map(|m| {
-            m.residues
-                .iter()
-                .enumerate()
-                .map(|(k, r)| r.norm() * tau_slow.unwrap_or(tau_fast).powi(k as i32))
-                .fold(0.0, f64::max)
-        })
-        .sum();
-    let loss = f64::EPSILON * modal_size / estimator.normaliser();
+    let loss = estimator.rounding_floor();
     if loss > 1e-9 {
         warnings.push(warn(
             "network-ill-conditioned",
             format!(
                 "the modes' residues are up to {:.1e} times the size of h itself and cancel in the sum: \
                  relative figures carry rounding of about {loss:.0e}",
-                modal_size / estimator.normaliser()
+                loss / f64::EPSILON
             ),
         ));
     }

@@ -521,6 +521,13 @@ impl FreeResponse {
         })
     }
 
+    /// Σ_k |q_k| of each mode term (weighted), the size each mode brings to the sum.
+    pub fn magnitudes(&self) -> impl Iterator<Item = f64> + '_ {
+        self.terms
+            .iter()
+            .map(|t| t.weight * t.q.iter().map(|q| q.norm()).sum::<f64>())
+    }
+
     /// |p| of each mode term.
     pub fn frequencies(&self) -> impl Iterator<Item = f64> + '_ {
         self.terms.iter().map(|t| t.p.norm())

@@ -88,6 +88,7 @@ pub fn error_json(e: &ErrorEstimate) -> Value {
         "window": {"max_rel": e.window.max_rel, "t_max": e.window.t_max, "rms_rel": e.window.rms_rel},
         "normalised_by": e.normalised_by.name(),
         "normaliser": e.normaliser,
+        "rounding_floor": e.floor,
         "first_order": {
             "t0_rel": e.first_order.t0_rel,
             "t0_aligned_rel": e.first_order.t0_aligned_rel,

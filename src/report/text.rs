@@ -220,6 +220,16 @@ fn pulse_text(s: &mut String, heading: &str, p: &Trapezoid, run: f64, sc: &Scena
     let _ = writeln!(s, "  run (record length) {}", eng(run, Dim::Time));
 }
 
+/// A signed relative error, or "≈ 0" when it is below ten times the rounding floor.
+fn rel_text(v: f64, floor: f64) -> String {
+    let lim = 10.0 * floor;
+    if v.abs() < lim {
+        format!("≈ 0 (below {:.0e} %)", lim * 100.0)
+    } else {
+        percent(v)
+    }
+}
+
 fn error_text(s: &mut String, e: &ErrorEstimate) {
     let norm = match e.normalised_by {
         crate::estimate::NormalisedBy::H0Plus => "|h(0⁺)|",
@@ -232,15 +242,15 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
             "  at t = 0⁺, raw      reading {} /s vs h(0⁺) {} /s: {}   (first-order estimate {})",
             value_text(e.t0.reading),
             value_text(e.t0.ideal),
-            percent(e.t0.rel),
-            percent(e.first_order.t0_rel)
+            rel_text(e.t0.rel, e.floor),
+            rel_text(e.first_order.t0_rel, e.first_order.t0_floor)
         );
         let _ = writeln!(
             s,
             "  at t = 0⁺, aligned  vs h(end − centroid) {} /s: {}   (first-order estimate ½σ²h″: {})",
             value_text(e.t0_aligned.ideal),
-            percent(e.t0_aligned.rel),
-            percent(e.first_order.t0_aligned_rel)
+            rel_text(e.t0_aligned.rel, e.floor),
+            rel_text(e.first_order.t0_aligned_rel, e.first_order.t0_aligned_floor)
         );
     } else {
         let _ = writeln!(
