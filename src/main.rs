@@ -14,7 +14,16 @@ fn main() -> ExitCode {
             if is_broken_pipe(&err) {
                 return ExitCode::from(0);
             }
-            eprintln!("error: {err}");
+            let colour = std::io::IsTerminal::is_terminal(&std::io::stderr())
+                && std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty());
+            let style = anstyle::Style::new()
+                .fg_color(Some(anstyle::AnsiColor::Red.into()))
+                .bold();
+            if colour {
+                eprintln!("{style}error:{style:#} {err}");
+            } else {
+                eprintln!("error: {err}");
+            }
             for cause in err.chain().skip(1) {
                 eprintln!("  caused by: {cause}");
             }

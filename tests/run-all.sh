@@ -7,3 +7,10 @@ python3 -m pip install --quiet --disable-pip-version-check -r tests/reference/re
 cargo test
 cargo build --release
 python3 tests/reference/check_core.py --quiet
+python3 tests/reference/check_circuits.py --quiet
+# Browser check of the HTML report: headless Chromium renders report.html and each figure.
+# CI runs as root and installs Chromium when it is missing; elsewhere the check needs it present.
+if [ ! -x /usr/bin/chromium ] && [ "$(id -u)" = "0" ]; then
+    (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium) >/dev/null
+fi
+python3 tests/browser/check_report.py --quiet

@@ -1,11 +1,16 @@
 //! Reports: the text report, the JSON object, the response CSV, and atomic file writes.
 //! Each format has its own submodule; they share the cursor readings defined here.
 
+pub mod bundle;
 mod csv_out;
+pub mod figures;
+pub mod html;
 mod json;
 mod text;
 
+pub use bundle::{BundleOptions, write_bundle, write_bundle_with};
 pub use csv_out::{response_rows, write_atomic, write_response_csv};
+pub use html::plan_html;
 pub use json::{assess_json, error_json, network_json, plan_json, pulse_json};
 pub use text::{assess_text, plan_text, with_unit};
 

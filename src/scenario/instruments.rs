@@ -110,14 +110,14 @@ pub(crate) fn bench(
                         .map(|q| load_setting(rd, q))
                         .transpose()?,
                 };
-                if let (Some(lo), Some(hi), Some(q)) = (gen_.min_edge, gen_.max_edge, &g.max_edge) {
-                    if lo > hi {
-                        return Err(rd.err(
-                            Some(&q.span()),
-                            "generator.max_edge",
-                            "is shorter than min_edge",
-                        ));
-                    }
+                if let (Some(lo), Some(hi), Some(q)) = (gen_.min_edge, gen_.max_edge, &g.max_edge)
+                    && lo > hi
+                {
+                    return Err(rd.err(
+                        Some(&q.span()),
+                        "generator.max_edge",
+                        "is shorter than min_edge",
+                    ));
                 }
                 Ok(gen_)
             },
@@ -139,23 +139,19 @@ pub(crate) fn bench(
                 max_points: opt(rd, &c.max_points, "capture.max_points", Dim::Number)?,
                 max_averages: opt(rd, &c.max_averages, "capture.max_averages", Dim::Number)?,
             };
-            if let (Some(p), Some(q)) = (cap.max_points, &c.max_points) {
-                if p < 2.0 {
-                    return Err(rd.err(
-                        Some(&q.span()),
-                        "capture.max_points",
-                        "must be at least 2",
-                    ));
-                }
+            if let (Some(p), Some(q)) = (cap.max_points, &c.max_points)
+                && p < 2.0
+            {
+                return Err(rd.err(Some(&q.span()), "capture.max_points", "must be at least 2"));
             }
-            if let (Some(a), Some(q)) = (cap.max_averages, &c.max_averages) {
-                if a < 1.0 {
-                    return Err(rd.err(
-                        Some(&q.span()),
-                        "capture.max_averages",
-                        "must be at least 1",
-                    ));
-                }
+            if let (Some(a), Some(q)) = (cap.max_averages, &c.max_averages)
+                && a < 1.0
+            {
+                return Err(rd.err(
+                    Some(&q.span()),
+                    "capture.max_averages",
+                    "must be at least 1",
+                ));
             }
             Ok(cap)
         })

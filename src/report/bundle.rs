@@ -1,0 +1,62 @@
+//! The report bundle: a folder with the figures, the HTML report, the response CSV and the
+//! plan JSON, every file written atomically.
+
+use super::figures::{FigureOptions, plan_figures};
+use crate::plan::PlanOutcome;
+use crate::scenario::Scenario;
+use std::path::{Path, PathBuf};
+
+/// Uniform points in the bundle's response.csv (breakpoints are added).
+pub const RESPONSE_POINTS: usize = 2001;
+
+/// Choices for [`write_bundle_with`].
+#[derive(Default)]
+pub struct BundleOptions<'a> {
+    /// Figure choices (design-curve extras, significant modes).
+    pub figures: FigureOptions<'a>,
+    /// Called as `(done, total)` while the design curve is swept.
+    pub progress: Option<&'a mut dyn FnMut(usize, usize)>,
+}
+
+/// Write the bundle for a plan into `dir` (created if needed): stimulus.svg, response.svg,
+/// error.svg, design.svg, poles.svg, report.html, response.csv and plan.json. Returns the paths
+/// written, in that order.
+pub fn write_bundle(dir: &Path, sc: &Scenario, out: &PlanOutcome) -> std::io::Result<Vec<PathBuf>> {
+    write_bundle_with(dir, sc, out, BundleOptions::default())
+}
+
+/// [`write_bundle`] with options.
+pub fn write_bundle_with(
+    dir: &Path,
+    sc: &Scenario,
+    out: &PlanOutcome,
+    opts: BundleOptions<'_>,
+) -> std::io::Result<Vec<PathBuf>> {
+    std::fs::create_dir_all(dir)?;
+    let mut noop = |_: usize, _: usize| {};
+    let progress: &mut dyn FnMut(usize, usize) = match opts.progress {
+        Some(p) => p,
+        None => &mut noop,
+    };
+    let figures = plan_figures(sc, out, &opts.figures, progress)?;
+    let mut written = Vec::new();
+    for f in &figures {
+        let path = dir.join(&f.file);
+        super::write_atomic(&path, f.svg.as_bytes())?;
+        written.push(path);
+    }
+    let html = super::html::plan_html(sc, out, &figures);
+    let path = dir.join("report.html");
+    super::write_atomic(&path, html.as_bytes())?;
+    written.push(path);
+    let rows = super::response_rows(&sc.network, &out.pulse, out.prep.run, RESPONSE_POINTS);
+    let path = dir.join("response.csv");
+    super::write_response_csv(&path, &rows)?;
+    written.push(path);
+    let json = serde_json::to_string_pretty(&super::plan_json(sc, out, &[]))
+        .map_err(std::io::Error::other)?;
+    let path = dir.join("plan.json");
+    super::write_atomic(&path, (json + "\n").as_bytes())?;
+    written.push(path);
+    Ok(written)
+}

@@ -1,0 +1,254 @@
+//! The design curve: the budgeted error metric against the pulse's 50 % width, on log–log
+//! axes, with the budget, the rule-of-thumb width, the planned width and the width cap.
+
+use super::{
+    Area, Axis, BAND, BUDGET, EXTRA, Key, Meta, PLANNED, PREDICTED, RULE, curve, label, legend,
+    panel, pe, percent_tick, render, segment, time_tick, titled,
+};
+use crate::plan::{PlanOutcome, tied_pulse};
+use crate::scenario::{Metric, Scenario};
+use crate::units::{Dim, eng, percent_unsigned};
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
+use std::io;
+
+/// A further curve on the design figure, in the same units: |relative error| (a fraction)
+/// against the 50 % width (s). Other analyses (the noise share of a reading, the total of noise
+/// and pulse error) pass theirs here.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ExtraCurve {
+    /// Legend text.
+    pub label: String,
+    /// (width s, |relative error|) points, in increasing width.
+    pub points: Vec<(f64, f64)>,
+}
+
+/// The swept design curve and the widths the plan picked.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DesignCurve {
+    /// The metric swept (the scenario's budget metric).
+    pub metric: Metric,
+    /// (width s, |metric| as a fraction), increasing width.
+    pub points: Vec<(f64, f64)>,
+    /// Rule-of-thumb width, s.
+    pub rule_width: f64,
+    /// Planned width, s.
+    pub planned_width: f64,
+    /// The metric at the planned width.
+    pub planned_value: f64,
+    /// Widest width the planner allows (fastest significant time scale / min_width_ratio), s.
+    pub cap_width: f64,
+    /// The budget, when one was given.
+    pub budget: Option<f64>,
+}
+
+/// Sweep the metric over `n` widths (log-spaced, plus the rule-of-thumb and planned widths),
+/// exactly as the planner's search evaluates it: `tied_pulse(area, w, edge_ratio)`, run at
+/// least twice the pulse's end. `progress(done, total)` is called after each width.
+pub fn design_curve(
+    sc: &Scenario,
+    out: &PlanOutcome,
+    n: usize,
+    progress: &mut dyn FnMut(usize, usize),
+) -> DesignCurve {
+    let s = &sc.plan;
+    let prep = &out.prep;
+    let rule_width = prep.tau_plan / s.width_ratio;
+    let planned_width = out.pulse.width_50();
+    let cap_width = prep.tau_plan / s.min_width_ratio;
+    let lo = rule_width.min(planned_width) / 30.0;
+    let hi = planned_width.max(cap_width) * 4.0;
+    let n = n.max(2);
+    let mut widths: Vec<f64> = (0..n)
+        .map(|k| lo * (hi / lo).powf(k as f64 / (n - 1) as f64))
+        .collect();
+    widths.push(rule_width);
+    widths.push(planned_width);
+    widths.sort_by(f64::total_cmp);
+    widths.dedup();
+    let f = |w: f64| {
+        let p = tied_pulse(sc.area, w, s.edge_ratio);
+        let run = prep.run.max(p.end() * 2.0);
+        prep.estimator.metric(&p, s.metric, run)
+    };
+    let total = widths.len();
+    let mut points = Vec::with_capacity(total);
+    for (i, &w) in widths.iter().enumerate() {
+        points.push((w, f(w)));
+        progress(i + 1, total);
+    }
+    let planned_value = points
+        .iter()
+        .find(|p| p.0 == planned_width)
+        .map_or_else(|| f(planned_width), |p| p.1);
+    DesignCurve {
+        metric: s.metric,
+        points,
+        rule_width,
+        planned_width,
+        planned_value,
+        cap_width,
+        budget: s.target_error,
+    }
+}
+
+/// Split a curve where it has no logarithm (zero crossings of the signed error).
+fn positive_runs(points: &[(f64, f64)], floor: f64) -> Vec<Vec<(f64, f64)>> {
+    let mut out: Vec<Vec<(f64, f64)>> = vec![Vec::new()];
+    for &(w, v) in points {
+        if v > 0.0 && v.is_finite() && w > 0.0 {
+            out.last_mut()
+                .expect("at least one run")
+                .push((w, v.max(floor)));
+        } else if !out.last().is_some_and(Vec::is_empty) {
+            out.push(Vec::new());
+        }
+    }
+    out.retain(|r| r.len() >= 2);
+    out
+}
+
+/// The design figure. `extra_curves` are drawn too (none today; noise and total later).
+pub fn design_svg(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> io::Result<String> {
+    let x = Axis::log(dc.points[0].0, dc.points[dc.points.len() - 1].0);
+    let all = dc
+        .points
+        .iter()
+        .map(|p| p.1)
+        .chain(
+            extra_curves
+                .iter()
+                .flat_map(|c| c.points.iter().map(|p| p.1)),
+        )
+        .chain(dc.budget)
+        .filter(|v| *v > 0.0 && v.is_finite());
+    let (mut vmin, mut vmax) = (f64::INFINITY, 0.0f64);
+    for v in all {
+        vmin = vmin.min(v);
+        vmax = vmax.max(v);
+    }
+    if !vmin.is_finite() {
+        (vmin, vmax) = (1e-6, 1.0);
+    }
+    // Zero crossings dive towards 0: keep at most ten decades below the top in view.
+    let floor = vmin.max(vmax * 1e-10);
+    let y = Axis::log(floor / 1.6, vmax * 1.8);
+    let title = "Design curve: error against pulse width";
+    let sub = format!(
+        "{} error (|relative|) of a pulse with edges tied to the width, log–log",
+        dc.metric.name()
+    );
+    let mut meta = Meta::new(title);
+    render(640, &mut meta, |root: &Area<'_>, meta: &mut Meta| {
+        let body = titled(root, title, &sub)?;
+        let mut keys = vec![Key::line(
+            PREDICTED,
+            3,
+            format!("{} error", dc.metric.name()),
+        )];
+        for (i, c) in extra_curves.iter().enumerate() {
+            keys.push(Key::line(EXTRA[i % EXTRA.len()], 3, c.label.clone()));
+        }
+        if dc.budget.is_some() {
+            keys.push(Key::dashed(BUDGET, 2, "8 5", "budget"));
+        }
+        keys.push(Key::dashed(RULE, 2, "10 4 2 4", "rule-of-thumb width"));
+        keys.push(Key::marker(PLANNED, "planned width"));
+        keys.push(Key::line(BAND, 12, "wider than the cap"));
+        let body = legend(&body, &keys, meta)?;
+        meta.dash(BUDGET, "8 5");
+        meta.dash(RULE, "10 4 2 4");
+        let mut ch = panel(
+            &body,
+            x,
+            y,
+            "pulse width at 50 % (s)",
+            "|relative error|",
+            &time_tick,
+            &percent_tick,
+            None,
+        )?;
+        meta.panel("design", &ch, &x, &y);
+        if dc.cap_width < x.hi {
+            ch.draw_series(std::iter::once(Rectangle::new(
+                [(dc.cap_width.max(x.lo), y.lo), (x.hi, y.hi)],
+                BAND.filled(),
+            )))
+            .map_err(pe)?;
+            label(
+                &mut ch,
+                (dc.cap_width.max(x.lo), y.lo),
+                (6, -6),
+                &format!("cap {}", eng(dc.cap_width, Dim::Time)),
+                RULE,
+                Pos::new(HPos::Left, VPos::Bottom),
+            )?;
+        }
+        for (i, c) in extra_curves.iter().enumerate() {
+            for run in positive_runs(&c.points, floor) {
+                curve(&mut ch, run, EXTRA[i % EXTRA.len()], 3)?;
+            }
+            meta.series("design", &format!("extra{i}"), EXTRA[i % EXTRA.len()]);
+        }
+        for run in positive_runs(&dc.points, floor) {
+            curve(&mut ch, run, PREDICTED, 3)?;
+        }
+        meta.series("design", "metric", PREDICTED);
+        if let Some(b) = dc.budget {
+            segment(&mut ch, (x.lo, b), (x.hi, b), BUDGET, 2)?;
+            label(
+                &mut ch,
+                (x.lo, b),
+                (8, -4),
+                &format!("budget {}", percent_unsigned(b)),
+                BUDGET,
+                Pos::new(HPos::Left, VPos::Bottom),
+            )?;
+        }
+        segment(
+            &mut ch,
+            (dc.rule_width, y.lo),
+            (dc.rule_width, y.hi),
+            RULE,
+            2,
+        )?;
+        label(
+            &mut ch,
+            (dc.rule_width, y.hi),
+            (-6, 26),
+            &format!("rule of thumb {}", eng(dc.rule_width, Dim::Time)),
+            RULE,
+            Pos::new(HPos::Right, VPos::Top),
+        )?;
+        let pv = dc.planned_value.max(floor);
+        segment(
+            &mut ch,
+            (dc.planned_width, y.lo),
+            (dc.planned_width, pv),
+            PLANNED,
+            1,
+        )?;
+        ch.draw_series(std::iter::once(Circle::new(
+            (dc.planned_width, pv),
+            6,
+            PLANNED.filled(),
+        )))
+        .map_err(pe)?;
+        meta.point("design", "planned", dc.planned_width, dc.planned_value);
+        // Label on the side with room: left of the marker in the right third of the panel.
+        let right_side = x.fraction(dc.planned_width) < 0.66;
+        label(
+            &mut ch,
+            (dc.planned_width, pv),
+            (if right_side { 10 } else { -10 }, 6),
+            &format!(
+                "planned {} ({})",
+                eng(dc.planned_width, Dim::Time),
+                percent_unsigned(dc.planned_value)
+            ),
+            PLANNED,
+            Pos::new(if right_side { HPos::Left } else { HPos::Right }, VPos::Top),
+        )?;
+        Ok(())
+    })
+}
