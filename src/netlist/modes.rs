@@ -267,6 +267,50 @@ fn modes_of(ss: &StateSpace) -> Result<Vec<Mode>, String> {
         }
     }
     let ne = eigs.len();
+    // Small eigenvalues carry the absolute error ε‖A‖ of the Schur form, which is a large
+    // relative error for the slow poles of a stiff network. Re-estimate each from the
+    // two-sided quotient of A⁻¹ (the largest eigenvalues of A⁻¹ are the smallest of A, found
+    // with relative accuracy): 1/λ = wᵀA⁻¹y / wᵀy with the right and left eigenvectors.
+    let lu = ss.a.clone().lu();
+    let invertible = lu.is_invertible();
+    for k in 0..ne {
+        if !invertible || eigs[k].conj_of.is_some() || eigs[k].lam.norm() > 1e-2 * tnorm {
+            continue;
+        }
+        let y = qt.right(eigs[k].lam, eigs[k].block);
+        let w = qt.left(eigs[k].lam, eigs[k].block);
+        let to_orig = |v: &[C]| -> (nalgebra::DVector<f64>, nalgebra::DVector<f64>) {
+            let re = &q * nalgebra::DVector::from_iterator(n, v.iter().map(|z| z.re));
+            let im = &q * nalgebra::DVector::from_iterator(n, v.iter().map(|z| z.im));
+            (re, im)
+        };
+        let (yr, yi) = to_orig(&y);
+        let (wr, wi) = to_orig(&w);
+        let (Some(xr), Some(xi)) = (lu.solve(&yr), lu.solve(&yi)) else {
+            continue;
+        };
+        let cdot = |ar: &nalgebra::DVector<f64>,
+                    ai: &nalgebra::DVector<f64>,
+                    br: &nalgebra::DVector<f64>,
+                    bi: &nalgebra::DVector<f64>| {
+            C::new(ar.dot(br) - ai.dot(bi), ar.dot(bi) + ai.dot(br))
+        };
+        let mu = cdot(&wr, &wi, &xr, &xi) / cdot(&wr, &wi, &yr, &yi);
+        let refined = C::new(1.0, 0.0) / mu;
+        // Accept only a correction within the Schur form's own uncertainty.
+        let allowed = 1e3 * f64::EPSILON * tnorm;
+        if refined.is_finite() && (refined - eigs[k].lam).norm() <= allowed {
+            let refined = if eigs[k].lam.im == 0.0 {
+                C::new(refined.re, 0.0)
+            } else {
+                refined
+            };
+            eigs[k].lam = refined;
+            if k + 1 < ne && eigs[k + 1].conj_of == Some(k) {
+                eigs[k + 1].lam = refined.conj();
+            }
+        }
+    }
     // Residues of simple poles and eigenvalue condition numbers.
     let mut residue = vec![ZERO; ne];
     let mut cond = vec![1.0; ne];

@@ -551,12 +551,41 @@ fn network_spec(
 
 fn network_error(rd: &Reader, net: &Spanned<RawNetwork>, e: NetworkError) -> ScenarioError {
     match e {
-        NetworkError::Netlist(ne) => ScenarioError {
-            file: rd.file.to_string(),
-            line: ne.line.unwrap_or_else(|| rd.line_of(&net.span())),
-            key: format!("network: {}", ne.culprit),
-            message: ne.message,
-        },
+        NetworkError::Netlist(ne) => {
+            // Errors without a part line concern the input or output: point at that key.
+            let n = net.get_ref();
+            let output_names: Vec<String> = match n.output.as_ref().map(|o| o.get_ref()) {
+                Some(circuit::RawOutput::Node(a)) => vec![a.clone()],
+                Some(circuit::RawOutput::Pair(v)) => v.clone(),
+                Some(circuit::RawOutput::Through { current_through }) => {
+                    vec![current_through.clone()]
+                }
+                None => Vec::new(),
+            };
+            let span = if output_names.iter().any(|o| ne.culprit.contains(o.as_str())) {
+                n.output.as_ref().map(|o| o.span())
+            } else if n.input.as_ref().is_some_and(|i| ne.culprit == *i.get_ref()) {
+                n.input.as_ref().map(|i| i.span())
+            } else {
+                None
+            };
+            let key = match &span {
+                Some(_) if n.input.as_ref().is_some_and(|i| ne.culprit == *i.get_ref()) => {
+                    "network.input"
+                }
+                Some(_) => "network.output",
+                None => "network",
+            };
+            ScenarioError {
+                file: rd.file.to_string(),
+                line: ne
+                    .line
+                    .or_else(|| span.as_ref().map(|s| rd.line_of(s)))
+                    .unwrap_or_else(|| rd.line_of(&net.span())),
+                key: format!("{key}: {}", ne.culprit),
+                message: ne.message,
+            }
+        }
         other => rd.err(Some(&net.span()), "network", other.to_string()),
     }
 }
