@@ -36,6 +36,12 @@ pub enum Command {
         /// Folder for the report bundle instead of out/<scenario name>/ (implies --report).
         #[arg(long, value_name = "DIR")]
         out: Option<PathBuf>,
+        /// Monte Carlo samples over the parts' tolerances (overrides [plan] samples).
+        #[arg(long, value_name = "N")]
+        samples: Option<usize>,
+        /// Seed of the Monte Carlo draw (overrides [plan] seed).
+        #[arg(long, value_name = "S")]
+        seed: Option<u64>,
     },
     /// Evaluate the pulse given in the scenario's [pulse] section.
     Assess {
@@ -343,10 +349,27 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             common,
             report: want_report,
             out: out_dir,
+            samples,
+            seed,
         } => {
-            let sc = load(&file)?;
+            let mut sc = load(&file)?;
+            if let Some(n) = samples {
+                if n == 0 {
+                    bail!(InputError("--samples must be at least 1".into()));
+                }
+                sc.plan.samples = Some(n);
+            }
+            if let Some(s) = seed {
+                sc.plan.seed = s;
+            }
             let times = parse_times(&common.at)?;
-            let out = crate::plan::plan(&sc);
+            let bar = std::sync::Mutex::new(Progress::new("tolerances"));
+            let out = crate::plan::plan_with_progress(&sc, &|d, t| {
+                if let Ok(mut b) = bar.lock() {
+                    b.update(d, t);
+                }
+            });
+            drop(bar);
             if want_report || out_dir.is_some() {
                 let dir = out_dir.unwrap_or_else(|| Path::new("out").join(&sc.name));
                 let mut bar = Progress::new("design curve");

@@ -19,8 +19,8 @@ pub struct BundleOptions<'a> {
 }
 
 /// Write the bundle for a plan into `dir` (created if needed): stimulus.svg, response.svg,
-/// error.svg, design.svg, poles.svg, report.html, response.csv and plan.json. Returns the paths
-/// written, in that order.
+/// error.svg, design.svg, poles.svg, report.html, response.csv, plan.json, generator.txt and
+/// stimulus.csv. Returns the paths written, in that order.
 pub fn write_bundle(dir: &Path, sc: &Scenario, out: &PlanOutcome) -> std::io::Result<Vec<PathBuf>> {
     write_bundle_with(dir, sc, out, BundleOptions::default())
 }
@@ -38,7 +38,40 @@ pub fn write_bundle_with(
         Some(p) => p,
         None => &mut noop,
     };
-    let figures = plan_figures(sc, out, &opts.figures, progress)?;
+    // With output noise, the design figure also shows the noise and total curves.
+    let noise_curves: Vec<super::figures::ExtraCurve> =
+        match (&out.bench.noise, opts.figures.extra_curves.is_empty()) {
+            (Some(n), true) => vec![
+                super::figures::ExtraCurve {
+                    label: "noise, one acquisition".into(),
+                    points: n
+                        .widths
+                        .iter()
+                        .copied()
+                        .zip(n.noise.iter().copied())
+                        .collect(),
+                },
+                super::figures::ExtraCurve {
+                    label: "bias + noise".into(),
+                    points: n
+                        .widths
+                        .iter()
+                        .copied()
+                        .zip(n.total.iter().copied())
+                        .collect(),
+                },
+            ],
+            _ => Vec::new(),
+        };
+    let fig_opts = if noise_curves.is_empty() {
+        opts.figures
+    } else {
+        super::figures::FigureOptions {
+            extra_curves: &noise_curves,
+            ..opts.figures
+        }
+    };
+    let figures = plan_figures(sc, out, &fig_opts, progress)?;
     let mut written = Vec::new();
     for f in &figures {
         let path = dir.join(&f.file);
@@ -57,6 +90,20 @@ pub fn write_bundle_with(
         .map_err(std::io::Error::other)?;
     let path = dir.join("plan.json");
     super::write_atomic(&path, (json + "\n").as_bytes())?;
+    written.push(path);
+    let sheet = crate::bench::generator_sheet(sc, &out.bench, &out.warnings);
+    let path = dir.join("generator.txt");
+    super::write_atomic(&path, sheet.as_bytes())?;
+    written.push(path);
+    let unit = match sc.drive {
+        crate::scenario::DriveKind::Voltage => "V",
+        crate::scenario::DriveKind::Current => "A",
+    };
+    let path = dir.join("stimulus.csv");
+    super::write_atomic(
+        &path,
+        crate::bench::stimulus_csv(&out.bench, unit).as_bytes(),
+    )?;
     written.push(path);
     Ok(written)
 }

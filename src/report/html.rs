@@ -261,6 +261,147 @@ fn modes_table(s: &mut String, net: &Network, significant: &[bool]) {
     let _ = writeln!(s, "</tbody></table>");
 }
 
+/// The bench section: display amplitude, scaling, period, capture, notes.
+fn bench_html(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
+    let b = &out.bench;
+    let dim = sc.drive.dim();
+    let _ = writeln!(s, "<section><h2>On the bench</h2><table><tbody>");
+    text_row(
+        s,
+        "generator display (high level)",
+        &[format!(
+            "{} (×{} reaches a high-impedance input: {})",
+            eng(b.display_amplitude, dim),
+            plain(b.open_over_display),
+            eng(b.pulse.amplitude, dim)
+        )],
+    );
+    text_row(
+        s,
+        "area delivered",
+        &[format!(
+            "{} — read h(t) ≈ y(t) × {}",
+            crate::report::with_unit(b.scaling.area, sc.drive.area_unit()),
+            num(b.scaling.read_factor())
+        )],
+    );
+    text_row(
+        s,
+        "predicted peaks",
+        &[format!(
+            "input {}, output {}",
+            eng(b.peak_input, dim),
+            num(b.peak_output)
+        )],
+    );
+    let period = match &b.period {
+        Some(p) => format!(
+            "{} (earlier pulses add {}, target ≤ {})",
+            eng(p.period, Dim::Time),
+            percent_unsigned(p.tail),
+            percent_unsigned(p.target)
+        ),
+        None => "single shots only (a mode does not decay)".into(),
+    };
+    text_row(s, "period", &[period]);
+    let c = &b.capture;
+    text_row(
+        s,
+        "capture",
+        &[format!(
+            "every {} ({:.1} samples across the pulse), record {} with {} pre-trigger, {} points, {} average(s), trigger on the generator's sync output",
+            eng(c.sample_interval, Dim::Time),
+            c.samples_across_pulse,
+            eng(c.record_length, Dim::Time),
+            eng(c.pre_trigger, Dim::Time),
+            c.points,
+            c.averages
+        )],
+    );
+    let _ = writeln!(s, "</tbody></table>");
+    for n in &b.notes {
+        let _ = writeln!(s, "<p class=\"note\">{}</p>", escape(n));
+    }
+    let _ = writeln!(s, "</section>");
+}
+
+/// The tolerance section, when parts carry tolerances.
+fn tolerance_html(s: &mut String, out: &PlanOutcome) {
+    let Some(t) = &out.tolerance else { return };
+    let how = match t.method {
+        crate::tolerance::Method::Corners { count } => format!("{count} corners"),
+        crate::tolerance::Method::MonteCarlo { samples, seed } => {
+            format!("{samples} Monte Carlo samples (uniform in each band, seed {seed})")
+        }
+    };
+    let _ = writeln!(
+        s,
+        "<section><h2>Tolerances</h2><p class=\"note\">{}</p><table><thead><tr><th>quantity</th><th>nominal</th><th>min</th><th>max</th></tr></thead><tbody>",
+        escape(&how)
+    );
+    for (name, sp) in [
+        ("fastest significant τ", &t.tau_fast),
+        ("slowest time constant", &t.tau_slow),
+    ] {
+        row(
+            s,
+            name,
+            &[
+                eng(sp.nominal, Dim::Time),
+                eng(sp.min, Dim::Time),
+                eng(sp.max, Dim::Time),
+            ],
+        );
+    }
+    if t.h0.nominal != 0.0 {
+        row(
+            s,
+            "h(0⁺) (1/s)",
+            &[num(t.h0.nominal), num(t.h0.min), num(t.h0.max)],
+        );
+    }
+    let _ = writeln!(s, "</tbody></table>");
+    if !t.sensitivities.is_empty() {
+        let _ = writeln!(
+            s,
+            "<table><thead><tr><th>part</th><th>tolerance</th><th>∂ln τ_fast/∂ln x</th><th>∂ln τ_slow/∂ln x</th><th>∂ln h(0⁺)/∂ln x</th></tr></thead><tbody>"
+        );
+        for x in t.sensitivities.iter().take(8) {
+            row(
+                s,
+                &x.part,
+                &[
+                    percent_unsigned(x.tolerance),
+                    format!("{:+.3}", x.tau_fast),
+                    format!("{:+.3}", x.tau_slow),
+                    format!("{:+.3}", x.h0),
+                ],
+            );
+        }
+        let _ = writeln!(s, "</tbody></table>");
+    }
+    if let Some(r) = out.robust {
+        let _ = writeln!(
+            s,
+            "<p>Robust plan: width {} (the nominal network alone allows {}), run {} (nominal {}).</p>",
+            escape(&eng(r.width, Dim::Time)),
+            escape(&eng(r.nominal_width, Dim::Time)),
+            escape(&eng(r.run, Dim::Time)),
+            escape(&eng(r.nominal_run, Dim::Time))
+        );
+    }
+    let _ = writeln!(s, "</section>");
+}
+
+/// A row whose cells are prose (left-aligned, wrapping).
+fn text_row(s: &mut String, head: &str, cells: &[String]) {
+    let _ = write!(s, "<tr><th>{}</th>", escape(head));
+    for c in cells {
+        let _ = write!(s, "<td>{}</td>", escape(c));
+    }
+    let _ = writeln!(s, "</tr>");
+}
+
 fn row(s: &mut String, head: &str, cells: &[String]) {
     let _ = write!(s, "<tr><th>{}</th>", escape(head));
     for c in cells {
@@ -687,6 +828,9 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         "<p class=\"note\">Run length basis: {}.</p></section>",
         escape(&prep.run_basis)
     );
+
+    bench_html(&mut s, sc, out);
+    tolerance_html(&mut s, out);
 
     // Errors.
     let _ = writeln!(
