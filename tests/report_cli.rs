@@ -29,7 +29,7 @@ fn scenario(name: &str) -> String {
         .to_string()
 }
 
-const BUNDLE: [&str; 8] = [
+const BUNDLE: [&str; 10] = [
     "stimulus.svg",
     "response.svg",
     "error.svg",
@@ -38,6 +38,8 @@ const BUNDLE: [&str; 8] = [
     "report.html",
     "response.csv",
     "plan.json",
+    "generator.txt",
+    "stimulus.csv",
 ];
 
 #[test]
