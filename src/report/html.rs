@@ -223,21 +223,7 @@ fn modes_table(s: &mut String, net: &Network, significant: &[bool]) {
             skipped += 1;
             continue;
         }
-        let res = if net.residues_known {
-            m.residues
-                .iter()
-                .map(|&r| complex_text(r))
-                .collect::<Vec<_>>()
-                .join(", ")
-        } else {
-            "unknown".into()
-        };
-        let tau = if m.pole.re != 0.0 {
-            eng(m.time_constant(), Dim::Time)
-        } else {
-            "∞".into()
-        };
-        let zeta = m.damping().map_or("–".into(), |d| format!("{d:.4}"));
+        let [res, tau, zeta] = super::mode_cells(net, m, complex_text);
         let _ = writeln!(
             s,
             "<tr><td class=\"num\">{}</td><td class=\"num\">{}</td><td>{}</td><td class=\"num\">{}</td>\

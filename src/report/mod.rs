@@ -14,9 +14,10 @@ pub use html::plan_html;
 pub use json::{assess_json, error_json, network_json, plan_json, pulse_json};
 pub use text::{assess_text, plan_text, with_unit};
 
-use crate::network::Network;
+use crate::network::{Mode, Network};
 use crate::pulse::Trapezoid;
 use crate::response::Modal;
+use crate::units::{Dim, eng};
 
 /// One cursor reading: ideal and predicted values at a chosen instant.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -47,4 +48,29 @@ pub fn cursors(net: &Network, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
             predicted: driven.at(t) / area,
         })
         .collect()
+}
+
+/// The display cells every modes table shares: residues (joined, in the caller's complex
+/// format), the time constant and the damping ratio.
+pub(crate) fn mode_cells(
+    net: &Network,
+    m: &Mode,
+    complex: fn(num_complex::Complex64) -> String,
+) -> [String; 3] {
+    let residues = if net.residues_known {
+        m.residues
+            .iter()
+            .map(|&r| complex(r))
+            .collect::<Vec<_>>()
+            .join(", ")
+    } else {
+        "unknown".to_string()
+    };
+    let tau = if m.pole.re != 0.0 {
+        eng(m.time_constant(), Dim::Time)
+    } else {
+        "∞".into()
+    };
+    let zeta = m.damping().map_or("–".into(), |d| format!("{d:.4}"));
+    [residues, tau, zeta]
 }

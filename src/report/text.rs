@@ -62,21 +62,7 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
             hidden_share = hidden_share.max(prep.shares[i]);
             continue;
         }
-        let res = if net.residues_known {
-            m.residues
-                .iter()
-                .map(|&r| pole_text(r))
-                .collect::<Vec<_>>()
-                .join(", ")
-        } else {
-            "unknown".to_string()
-        };
-        let tau = if m.pole.re != 0.0 {
-            eng(m.time_constant(), Dim::Time)
-        } else {
-            "∞".into()
-        };
-        let zeta = m.damping().map_or("–".into(), |d| format!("{d:.4}"));
+        let [res, tau, zeta] = super::mode_cells(net, m, pole_text);
         let share = if net.residues_known {
             format!(
                 "{}{}",
