@@ -274,7 +274,7 @@ const STARTER: &str = r#"# A pulseplan scenario. Edit the values, then run
 title = {TITLE}
 
 [network]
-# Give exactly ONE of the three forms.
+# Give exactly ONE of the four forms.
 # Form 1 (active): H(s) = gain·Π(s − z)/Π(s − p), in rad/s; complex values as "re+imj",
 # conjugate pairs complete.
 poles = ["-2k", "-15k+40kj", "-15k-40kj"]
@@ -285,6 +285,13 @@ gain  = "30k"
 # denominator = [1.0, 2000.0]
 # Form 3: only time constants known (residues unknown; errors are given per mode).
 # time_constants = ["5 ms", "80 us"]
+# Form 4: a circuit. input/output are node names; ground is "0" or "gnd".
+# input  = "in"
+# output = "out"             # or ["a", "b"], or { current_through = "R1" }
+# parts = [
+#   { name = "R1", kind = "resistor",  nodes = ["in", "out"], value = "10k", tolerance = "1 %" },
+#   { name = "C1", kind = "capacitor", nodes = ["out", "gnd"], value = "10n", tolerance = "5 %" },
+# ]
 
 [drive]
 kind = "voltage"          # or "current" (the area is then in A·s)
@@ -305,6 +312,23 @@ metric = "t0-aligned"     # "t0", "t0-aligned" or "window"
 # fall = "200 ns"
 # convention = "generator"  # or "ramp": width is the flat top, rise/fall the full ramps
 # run = "10 ms"           # your record length
+
+# The bench (all optional; without them the plan is for an unconstrained simulator).
+# [generator]
+# max_amplitude = "10 V"
+# min_width = "20 ns"
+# min_edge = "8 ns"
+# time_step = "1 ns"
+# output_resistance = "50"
+# load_setting = "high-z"   # or "50"
+# [capture]
+# noise = "0.5 mV"          # rms at the output, one acquisition
+# max_sample_rate = "2.5 GHz"
+# max_points = 20_000_000
+# max_averages = 1024
+# [limits]
+# max_input = "5 V"
+# max_output = "4 V"
 "#;
 
 fn new_scenario(name: &str) -> Result<Outcome> {
