@@ -195,7 +195,7 @@ fn fmt_pole(p: num_complex::Complex64) -> String {
 }
 
 fn fmt_value(v: f64) -> String {
-    crate::units::eng_number(v, 4).trim_end().to_string()
+    crate::units::eng_plain(v, 4)
 }
 
 /// A unit-area... or any-area pulse of 50 % width `w` with edges tied by the edge ratio.

@@ -314,6 +314,22 @@ pub fn eng_number(value: f64, sig: usize) -> String {
     format!("{text} {prefix}")
 }
 
+/// [`eng_number`] without the trailing space (for values whose unit is printed elsewhere).
+pub fn eng_plain(value: f64, sig: usize) -> String {
+    eng_number(value, sig).trim_end().to_string()
+}
+
+/// A dimensionless number with at most six significant digits and no prefix (a prefix would
+/// read as a unit): 0.995025, 1.5e-5.
+pub fn plain(v: f64) -> String {
+    if v != 0.0 && (v.abs() < 1e-3 || v.abs() >= 1e6) {
+        format!("{v:.5e}")
+    } else {
+        let t = format!("{v:.6}");
+        t.trim_end_matches('0').trim_end_matches('.').to_string()
+    }
+}
+
 /// Format an SI value in engineering notation with its unit: `eng(4.7e-9, Dim::Capacitance)` → "4.7 nF".
 pub fn eng(value: f64, dim: Dim) -> String {
     eng_sig(value, dim, 4)

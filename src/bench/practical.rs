@@ -358,5 +358,5 @@ fn gen_ranges(sc: &Scenario) -> Option<&super::Generator> {
 }
 
 fn fmt_plain(v: f64) -> String {
-    crate::units::eng_number(v, 4).trim_end().to_string()
+    crate::units::eng_plain(v, 4)
 }

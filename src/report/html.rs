@@ -7,7 +7,7 @@ use crate::network::{Network, NetworkSpec};
 use crate::plan::{PlanOutcome, Target, Warning};
 use crate::pulse::Trapezoid;
 use crate::scenario::{DriveKind, Scenario};
-use crate::units::{Dim, eng, eng_number, percent, percent_unsigned};
+use crate::units::{Dim, eng, percent, percent_unsigned, plain};
 use num_complex::Complex64;
 use std::fmt::Write as _;
 
@@ -73,17 +73,7 @@ footer { margin-top: 36px; font-size: 12px; color: var(--soft); border-top: 1px 
 "#;
 
 fn num(v: f64) -> String {
-    eng_number(v, 5).trim_end().to_string()
-}
-
-/// A dimensionless number without prefixes (which would read as units).
-fn plain(v: f64) -> String {
-    if v != 0.0 && (v.abs() < 1e-3 || v.abs() >= 1e6) {
-        format!("{v:.5e}")
-    } else {
-        let t = format!("{v:.6}");
-        t.trim_end_matches('0').trim_end_matches('.').to_string()
-    }
+    crate::units::eng_plain(v, 5)
 }
 
 fn complex_text(z: Complex64) -> String {

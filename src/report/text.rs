@@ -7,7 +7,7 @@ use crate::network::Network;
 use crate::plan::{AssessOutcome, PlanOutcome, Prepared, Target, Warning};
 use crate::pulse::Trapezoid;
 use crate::scenario::Scenario;
-use crate::units::{Dim, eng, eng_number, percent, percent_unsigned};
+use crate::units::{Dim, eng, eng_number, percent, percent_unsigned, plain};
 use std::fmt::Write as _;
 
 fn pole_text(z: num_complex::Complex64) -> String {
@@ -30,18 +30,8 @@ pub fn with_unit(v: f64, unit: &str) -> String {
     format!("{}{unit}", eng_number(v, 4))
 }
 
-/// A dimensionless number with at most six significant digits and no prefix.
-fn plain(v: f64) -> String {
-    if v != 0.0 && (v.abs() < 1e-3 || v.abs() >= 1e6) {
-        format!("{v:.5e}")
-    } else {
-        let t = format!("{v:.6}");
-        t.trim_end_matches('0').trim_end_matches('.').to_string()
-    }
-}
-
 fn value_text(v: f64) -> String {
-    eng_number(v, 5).trim_end().to_string()
+    crate::units::eng_plain(v, 5)
 }
 
 /// The network section of the text report.
