@@ -431,6 +431,12 @@ pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync
         {
             ideal_pulse = tied_pulse(sc.area, w, s.edge_ratio);
             bench = practical(sc, &prep, &ideal_pulse, true);
+            notes.push(format!(
+                "with the output noise of [capture], the width needing the fewest averages for the budget is {} \
+                 (the bias alone would allow {})",
+                eng(w, Dim::Time),
+                eng(w_hi, Dim::Time)
+            ));
         }
     }
     let pulse = bench.pulse;
