@@ -173,7 +173,9 @@ fn suggest(unit: &str, dim: Dim) -> String {
 /// The unit symbol is optional; when given it must belong to `dim`. A bare prefix ("10k")
 /// is accepted. For [`Dim::Fraction`], "%" divides by 100 and "ppm" by 10⁶.
 pub fn parse_quantity(text: &str, dim: Dim) -> Result<f64, UnitError> {
-    let s = text.trim();
+    // Typographic minus (U+2212) reads as a hyphen-minus.
+    let normalised = text.trim().replace('\u{2212}', "-");
+    let s = normalised.as_str();
     let lowered = s.to_ascii_lowercase();
     if lowered.contains("nan") || lowered.contains("inf") {
         return Err(UnitError::NotFinite(text.to_string()));
@@ -220,7 +222,8 @@ fn apply_suffix(value: f64, rest: &str, dim: Dim) -> Option<f64> {
 ///
 /// Each part may carry an SI prefix; a trailing " rad/s" is accepted.
 pub fn parse_complex(text: &str) -> Result<Complex64, UnitError> {
-    let s = text.trim();
+    let normalised = text.trim().replace('\u{2212}', "-");
+    let s = normalised.as_str();
     let s = s.strip_suffix("rad/s").unwrap_or(s).trim();
     let compact: String = s.chars().filter(|c| !c.is_whitespace()).collect();
     if let Some(body) = compact
@@ -432,6 +435,7 @@ mod tests {
             ("-1e-3+2e+3j", -1e-3, 2e3),
             ("-3 + 4j", -3.0, 4.0),
             ("-100 rad/s", -100.0, 0.0),
+            ("\u{2212}2k\u{2212}3kj", -2000.0, -3000.0),
         ];
         for (text, re, im) in cases {
             let z = parse_complex(text).unwrap();
