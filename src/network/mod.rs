@@ -209,10 +209,23 @@ impl Network {
     /// h(0⁺) from the modes: Σ of the first-order residues (terms t^(k−1) vanish at 0 for k ≥ 2).
     ///
     /// When the initial-value theorem gives exactly zero (relative degree ≥ 2) and the sum
-    /// cancels to rounding level (1e-10 of Σ|r₁|), the exact zero is returned.
+    /// cancels to rounding level (1e-10 of Σₖ|rₖ|/|p|^(k−1)), the exact zero is returned.
     pub fn h0_plus(&self) -> f64 {
         let sum: f64 = self.modes.iter().map(|m| m.residues[0].re).sum();
-        let scale: f64 = self.modes.iter().map(|m| m.residues[0].norm()).sum();
+        // Size of h near the origin: each Laurent coefficient rₖ contributes rₖ·t^(k−1) at the
+        // mode's own time scale.
+        let scale: f64 = self
+            .modes
+            .iter()
+            .map(|m| {
+                let t = m.time_scale();
+                m.residues
+                    .iter()
+                    .enumerate()
+                    .map(|(k, r)| r.norm() * t.powi(k as i32))
+                    .sum::<f64>()
+            })
+            .sum();
         if self.h0_ivt == 0.0 && sum.abs() <= 1e-10 * scale {
             0.0
         } else {
