@@ -44,3 +44,23 @@ fn rc_low_pass_has_no_finite_zero() {
         { name = \"C1\", kind = \"capacitor\", nodes = [\"out\", \"gnd\"], value = \"1u\" },\n]\n";
     assert!(zeros_of(text).is_empty());
 }
+
+#[test]
+fn biproper_circuit_keeps_full_accuracy() {
+    // R1 ∥ C1 from an ideal source to the output, R2 to ground: H = 1 − (1/(C1R2))/(s + p) with
+    // p = (R1 + R2)/(R1C1R2) (partial fractions of the divider): D = 1, residue −1/(C1R2), and
+    // h(0⁺) = −1/(C1R2). The input-derivative path of the reduction must not cost digits.
+    let text = "[network]\ninput = \"in\"\noutput = \"out\"\nparts = [\n\
+        { name = \"R1\", kind = \"resistor\", nodes = [\"in\", \"out\"], value = \"47k\" },\n\
+        { name = \"C1\", kind = \"capacitor\", nodes = [\"in\", \"out\"], value = \"22n\" },\n\
+        { name = \"R2\", kind = \"resistor\", nodes = [\"out\", \"gnd\"], value = \"10k\" },\n]\n";
+    let sc = parse("b.toml", "b", text).unwrap();
+    let net = &sc.network;
+    let (r1, c1, r2) = (47e3, 22e-9, 10e3);
+    let res = -1.0 / (c1 * r2);
+    let pole = -(r1 + r2) / (r1 * c1 * r2);
+    assert!((net.direct - 1.0).abs() < 1e-13);
+    assert!(((net.modes[0].pole.re - pole) / pole).abs() < 1e-13);
+    assert!(((net.modes[0].residues[0].re - res) / res).abs() < 1e-13);
+    assert!(((net.h0_ivt - res) / res).abs() < 1e-13);
+}

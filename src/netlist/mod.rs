@@ -52,6 +52,7 @@
 mod check;
 mod mna;
 mod modes;
+mod polish;
 mod reduce;
 #[cfg(test)]
 mod tests;
@@ -247,7 +248,7 @@ pub fn is_ground(node: &str) -> bool {
 /// Errors for every diagnostic of the module, and when the network function is improper
 /// (the output contains a derivative of the input; [`analyse`] accepts that case).
 pub fn state_space(spec: &NetlistSpec) -> Result<StateSpace, NetlistError> {
-    let reduced = reduce_spec(spec)?;
+    let (reduced, _) = reduce_spec(spec)?;
     if reduced.improper.iter().any(|&q| q != 0.0) {
         return Err(NetlistError::new(
             None,
@@ -265,10 +266,11 @@ pub fn state_space(spec: &NetlistSpec) -> Result<StateSpace, NetlistError> {
 /// Modes whose residues are negligible (uncontrollable or unobservable energy stores, e.g.
 /// an island of parts the stimulus never reaches) are dropped: they do not appear in H(s).
 pub fn analyse(spec: &NetlistSpec) -> Result<Network, NetlistError> {
-    let reduced = reduce_spec(spec)?;
+    let (reduced, desc) = reduce_spec(spec)?;
     let out = check::output_name(&spec.output);
-    let net = modes::network(&reduced.ss, reduced.improper)
+    let mut net = modes::network(&reduced.ss, reduced.improper)
         .map_err(|m| NetlistError::new(None, &out, m))?;
+    polish::polish(&desc, &mut net);
     if net.modes.is_empty() {
         return Err(NetlistError::new(
             None,
@@ -292,15 +294,16 @@ pub(crate) struct Reduced {
     pub improper: Vec<f64>,
 }
 
-fn reduce_spec(spec: &NetlistSpec) -> Result<Reduced, NetlistError> {
+fn reduce_spec(spec: &NetlistSpec) -> Result<(Reduced, mna::Descriptor), NetlistError> {
     let circuit = check::validate(spec)?;
     let desc = mna::assemble(spec, &circuit);
-    reduce::reduce(&desc).map_err(|e| match e {
+    let reduced = reduce::reduce(&desc).map_err(|e| match e {
         reduce::ReduceError::Singular { right, left } => {
             check::explain_singular(spec, &circuit, &desc.labels, &right, &left)
         }
         reduce::ReduceError::Numerical(m) => {
             NetlistError::new(None, &check::output_name(&spec.output), m)
         }
-    })
+    })?;
+    Ok((reduced, desc))
 }
