@@ -240,60 +240,10 @@ fn modes_table(s: &mut String, net: &Network, significant: &[bool]) {
 /// The bench section: display amplitude, scaling, period, capture, notes.
 fn bench_html(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
     let b = &out.bench;
-    let dim = sc.drive.dim();
     let _ = writeln!(s, "<section><h2>On the bench</h2><table><tbody>");
-    text_row(
-        s,
-        "generator display (high level)",
-        &[format!(
-            "{} (×{} reaches a high-impedance input: {})",
-            eng(b.display_amplitude, dim),
-            plain(b.open_over_display),
-            eng(b.pulse.amplitude, dim)
-        )],
-    );
-    text_row(
-        s,
-        "area delivered",
-        &[format!(
-            "{} — read h(t) ≈ y(t) × {}",
-            crate::report::with_unit(b.scaling.area, sc.drive.area_unit()),
-            num(b.scaling.read_factor())
-        )],
-    );
-    text_row(
-        s,
-        "predicted peaks",
-        &[format!(
-            "input {}, output {}",
-            eng(b.peak_input, dim),
-            num(b.peak_output)
-        )],
-    );
-    let period = match &b.period {
-        Some(p) => format!(
-            "{} (earlier pulses add {}, target ≤ {})",
-            eng(p.period, Dim::Time),
-            percent_unsigned(p.tail),
-            percent_unsigned(p.target)
-        ),
-        None => "single shots only (a mode does not decay)".into(),
-    };
-    text_row(s, "period", &[period]);
-    let c = &b.capture;
-    text_row(
-        s,
-        "capture",
-        &[format!(
-            "every {} ({:.1} samples across the pulse), record {} with {} pre-trigger, {} points, {} average(s), trigger on the generator's sync output",
-            eng(c.sample_interval, Dim::Time),
-            c.samples_across_pulse,
-            eng(c.record_length, Dim::Time),
-            eng(c.pre_trigger, Dim::Time),
-            c.points,
-            c.averages
-        )],
-    );
+    for (label, line) in super::bench_lines(sc, b) {
+        text_row(s, label, &[line]);
+    }
     let _ = writeln!(s, "</tbody></table>");
     for n in &b.notes {
         let _ = writeln!(s, "<p class=\"note\">{}</p>", escape(n));

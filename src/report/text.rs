@@ -265,57 +265,9 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
 }
 
 fn bench_text(s: &mut String, b: &BenchPlan, sc: &Scenario) {
-    let dim = sc.drive.dim();
     let _ = writeln!(s, "On the bench");
-    if b.open_over_display != 1.0 {
-        let _ = writeln!(
-            s,
-            "  set the generator's display to {} ({}× that reaches a high-impedance input: {})",
-            eng(b.display_amplitude, dim),
-            plain(b.open_over_display),
-            eng(b.pulse.amplitude, dim)
-        );
-    }
-    let _ = writeln!(
-        s,
-        "  peak at the input {}   predicted peak at the output {}",
-        eng(b.peak_input, dim),
-        value_text(b.peak_output)
-    );
-    match &b.period {
-        Some(p) => {
-            let _ = writeln!(
-                s,
-                "  period {} (earlier pulses add {}, target ≤ {})",
-                eng(p.period, Dim::Time),
-                percent_unsigned(p.tail),
-                percent_unsigned(p.target)
-            );
-        }
-        None => {
-            let _ = writeln!(s, "  single shots only (a mode does not decay)");
-        }
-    }
-    let c = &b.capture;
-    let _ = writeln!(
-        s,
-        "  capture: every {} ({:.1} samples across the pulse), record {} with {} pre-trigger, {} points, {} average(s), trigger on the generator's sync",
-        eng(c.sample_interval, Dim::Time),
-        c.samples_across_pulse,
-        eng(c.record_length, Dim::Time),
-        eng(c.pre_trigger, Dim::Time),
-        c.points,
-        c.averages
-    );
-    if let Some((f, co)) = &c.split {
-        let _ = writeln!(
-            s,
-            "  memory too small for one record: record 1 every {} for {}; record 2 every {} for {}",
-            eng(f.interval, Dim::Time),
-            eng(f.length, Dim::Time),
-            eng(co.interval, Dim::Time),
-            eng(co.length, Dim::Time)
-        );
+    for (label, line) in super::bench_lines(sc, b) {
+        let _ = writeln!(s, "  {label:<18} {line}");
     }
     for n in &b.notes {
         let _ = writeln!(s, "  note: {n}");
