@@ -5,7 +5,7 @@ use crate::bench::{BenchPlan, practical};
 use crate::estimate::{ErrorEstimate, Estimator, IdealShape, NormalisedBy};
 use crate::network::Network;
 use crate::pulse::Trapezoid;
-use crate::scenario::{DriveKind, Metric, PlanSettings, Scenario};
+use crate::scenario::{DriveKind, PlanSettings, Scenario};
 use crate::units::{Dim, eng};
 
 /// The usual extra-low-voltage limit for a pulse generator's output: 60 V (the common touch-safe
@@ -616,11 +616,6 @@ pub fn pulse_warnings(
         ));
     }
     out
-}
-
-/// The metric a scenario's budget applies to (for reports).
-pub fn metric_of(sc: &Scenario) -> Metric {
-    sc.plan.metric
 }
 
 #[cfg(test)]
