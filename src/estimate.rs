@@ -404,7 +404,7 @@ impl Estimator {
         let span = run - end;
         let rms_rel = (e.integral_square(span) / span).sqrt();
         // Uniform samples plus geometric points near the end, where the fast modes move.
-        let n = window_points(&self.modal, span);
+        let n = window_points(self.modal_fastest(), span);
         let dt = span / (n - 1) as f64;
         let eu = e.uniform(end, dt, n);
         let mut best = (0.0, end);
@@ -496,9 +496,7 @@ impl Estimator {
 }
 
 /// Number of uniform window samples: enough for the oscillations and the fastest decay.
-fn window_points(modal: &Modal, span: f64) -> usize {
-    let h = modal.impulse();
-    let fastest = h.frequencies().fold(0.0, f64::max);
+fn window_points(fastest: f64, span: f64) -> usize {
     let per_scale = 8.0;
     let want = span * fastest * per_scale;
     (want.ceil() as usize).clamp(2000, 200_000)

@@ -420,9 +420,7 @@ pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync
         sc.bench.capture.as_ref().and_then(|c| c.noise),
         bench.noise.as_ref(),
     ) {
-        let budget = s
-            .target_error
-            .unwrap_or_else(|| bench.estimate.metric(s.metric).max(1e-3));
+        let budget = bench.budget;
         let limited = (!bench.scaling.reasons.is_empty()).then_some(bench.pulse.amplitude.abs());
         let w_hi = pulse.width_50();
         if let Some((w, _)) =

@@ -54,6 +54,9 @@ pub struct BenchPlan {
     pub averages: Option<u64>,
     /// Capture settings.
     pub capture: CapturePlan,
+    /// The budget the bench stage worked to: `[plan] target_error`, or without one the pulse's
+    /// own error (at least 0.1 %).
+    pub budget: f64,
     /// Warnings raised by the bench stage.
     pub warnings: Vec<Warning>,
     /// Plain notes (what was changed and why).
@@ -283,7 +286,14 @@ pub fn practical(sc: &Scenario, prep: &Prepared, planned: &Trapezoid, adapt: boo
     };
 
     // Repetition.
-    let period = super::choose_period(est, &pulse, run, budget, s.metric, gen_ranges(sc));
+    let period = super::choose_period(
+        est,
+        &pulse,
+        run,
+        budget,
+        s.metric,
+        sc.bench.generator.as_ref(),
+    );
     match &period {
         None => warnings.push(warn(
             "single-shot-only",
@@ -348,13 +358,10 @@ pub fn practical(sc: &Scenario, prep: &Prepared, planned: &Trapezoid, adapt: boo
         noise,
         averages,
         capture: cap,
+        budget,
         warnings,
         notes,
     }
-}
-
-fn gen_ranges(sc: &Scenario) -> Option<&super::Generator> {
-    sc.bench.generator.as_ref()
 }
 
 fn fmt_plain(v: f64) -> String {

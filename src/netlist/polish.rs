@@ -104,19 +104,8 @@ pub(crate) fn polish(d: &Descriptor, net: &mut Network) {
             }
         }
     }
-    // Size of h near the origin: Σ |r_k|/|p|^(k−1) (each Laurent term at its own time scale).
-    let scale: f64 = net
-        .modes
-        .iter()
-        .map(|m| {
-            let w = m.pole.norm().max(f64::MIN_POSITIVE);
-            m.residues
-                .iter()
-                .enumerate()
-                .map(|(k, r)| r.norm() / w.powi(k as i32))
-                .sum::<f64>()
-        })
-        .sum();
+    // Size of h near the origin, each Laurent term at its own time scale.
+    let scale: f64 = net.modes.iter().map(crate::network::Mode::size).sum();
     net.direct = if direct.re.abs() <= 1e-12 * (1.0 + scale / pmax) {
         0.0
     } else {

@@ -113,6 +113,17 @@ impl Mode {
             .sum()
     }
 
+    /// Size of the mode near the origin: Σₖ |rₖ|/|p|^(k−1), each Laurent term taken at the
+    /// mode's own time scale 1/|p| (units of h, 1/s). Used to tell rounding from a true zero.
+    pub fn size(&self) -> f64 {
+        let t = self.time_scale();
+        self.residues
+            .iter()
+            .enumerate()
+            .map(|(k, r)| r.norm() * t.powi(k as i32))
+            .sum()
+    }
+
     /// Fastest time scale this mode imposes on a pulse: 1/|p| (for an underdamped pair the
     /// oscillation, not the decay).
     pub fn time_scale(&self) -> f64 {
@@ -214,18 +225,7 @@ impl Network {
         let sum: f64 = self.modes.iter().map(|m| m.residues[0].re).sum();
         // Size of h near the origin: each Laurent coefficient rₖ contributes rₖ·t^(k−1) at the
         // mode's own time scale.
-        let scale: f64 = self
-            .modes
-            .iter()
-            .map(|m| {
-                let t = m.time_scale();
-                m.residues
-                    .iter()
-                    .enumerate()
-                    .map(|(k, r)| r.norm() * t.powi(k as i32))
-                    .sum::<f64>()
-            })
-            .sum();
+        let scale: f64 = self.modes.iter().map(Mode::size).sum();
         if self.h0_ivt == 0.0 && sum.abs() <= 1e-10 * scale {
             0.0
         } else {
