@@ -5,10 +5,11 @@
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use num_complex::Complex64;
+use pulseplan::estimate::Metric;
 use pulseplan::network::{Network, NetworkSpec};
+use pulseplan::plan::PlanSettings;
 use pulseplan::plan::{prepare, tied_pulse, widest_within};
 use pulseplan::response::Modal;
-use pulseplan::scenario::{Metric, PlanSettings};
 use std::hint::black_box;
 
 /// An order-20 network of our own: 8 lightly to moderately damped pairs and 4 real poles,
@@ -67,7 +68,7 @@ fn ladder(c: &mut Criterion) {
     c.bench_function("1000-part RC ladder: parse, analyse, plan", |b| {
         b.iter(|| {
             let sc = pulseplan::scenario::load(std::path::Path::new(path)).expect("bench scenario");
-            black_box(pulseplan::plan::plan(&sc))
+            black_box(pulseplan::pipeline::plan(&sc))
         })
     });
 }

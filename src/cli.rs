@@ -148,8 +148,37 @@ fn paint(style: anstyle::Style, text: &str) -> String {
     format!("{style}{text}{style:#}")
 }
 
+/// Warnings worded for the terminal, with whether any needs the user's action.
+pub struct Worded {
+    /// (code, sentence) per warning.
+    pub lines: Vec<(&'static str, String)>,
+    /// True when any warning needs action (exit code 1).
+    pub act: bool,
+}
+
+impl Worded {
+    fn new(
+        sc: &Scenario,
+        warnings: &[crate::notice::Warning],
+        run_basis: &crate::plan::RunBasis,
+    ) -> Worded {
+        let basis = report::words::run_basis_text(run_basis);
+        let cx = report::words::Context {
+            drive: sc.drive,
+            run_basis: &basis,
+        };
+        Worded {
+            lines: warnings
+                .iter()
+                .map(|w| (w.code(), report::words::warning_text(w, &cx)))
+                .collect(),
+            act: crate::notice::needs_action(warnings),
+        }
+    }
+}
+
 /// Colour the warning codes, cautions and section headings of a text report.
-fn colour_report(text: &str, warnings: &[crate::plan::Warning]) -> String {
+fn colour_report(text: &str, warnings: &Worded) -> String {
     let mut out = String::with_capacity(text.len() + 256);
     for line in text.split_inclusive('\n') {
         let mut l = line.to_string();
@@ -157,8 +186,8 @@ fn colour_report(text: &str, warnings: &[crate::plan::Warning]) -> String {
             let body = l.trim_end_matches('\n').to_string();
             l = format!("{}\n", paint(HEAD_STYLE, &body));
         } else {
-            for w in warnings {
-                let tag = format!("[{}]", w.code);
+            for (code, _) in &warnings.lines {
+                let tag = format!("[{code}]");
                 if l.contains(&tag) {
                     l = l.replacen(&tag, &paint(CODE_STYLE, &tag), 1);
                 }
@@ -171,40 +200,34 @@ fn colour_report(text: &str, warnings: &[crate::plan::Warning]) -> String {
 }
 
 /// Print warnings to stderr as `warning [code]: message`.
-fn warn_stderr(warnings: &[crate::plan::Warning]) {
+fn warn_stderr(warnings: &Worded) {
     let colour = colour_on(std::io::stderr().is_terminal());
-    for w in warnings {
-        let tag = format!("[{}]", w.code);
+    for (code, message) in &warnings.lines {
+        let tag = format!("[{code}]");
         let (tag, msg) = if colour {
             (
                 paint(CODE_STYLE, &tag),
-                w.message
-                    .replace("CAUTION:", &paint(CAUTION_STYLE, "CAUTION:")),
+                message.replace("CAUTION:", &paint(CAUTION_STYLE, "CAUTION:")),
             )
         } else {
-            (tag, w.message.clone())
+            (tag, message.clone())
         };
         eprintln!("warning {tag}: {msg}");
     }
 }
 
 /// Print a report (or, when quiet, only its warnings on stderr).
-fn report_out(
-    text: String,
-    json: bool,
-    quiet: bool,
-    warnings: &[crate::plan::Warning],
-) -> Result<Outcome> {
+fn report_out(text: String, json: bool, quiet: bool, warnings: &Worded) -> Result<Outcome> {
     if quiet {
         warn_stderr(warnings);
-        return Ok(outcome(!warnings.is_empty()));
+        return Ok(outcome(warnings.act));
     }
     let text = if !json && colour_on(std::io::stdout().is_terminal()) {
         colour_report(&text, warnings)
     } else {
         text
     };
-    emit(text, !warnings.is_empty())
+    emit(text, warnings.act)
 }
 
 /// A progress bar on stderr that shows itself only on a terminal, and only once the work has
@@ -388,7 +411,7 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             }
             let times = parse_times(&common.at)?;
             let bar = std::sync::Mutex::new(Progress::new("tolerances"));
-            let out = crate::plan::plan_with_progress(&sc, &|d, t| {
+            let out = crate::pipeline::plan_with_progress(&sc, &|d, t| {
                 if let Ok(mut b) = bar.lock() {
                     b.update(d, t);
                 }
@@ -422,7 +445,8 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             } else {
                 report::plan_text(&sc, &out, &cs)
             };
-            report_out(text, common.json, quiet, &out.warnings)
+            let worded = Worded::new(&sc, &out.warnings, &out.prep.run_basis);
+            report_out(text, common.json, quiet, &worded)
         }
         Command::Assess { file, common } => {
             let sc = load(&file)?;
@@ -433,14 +457,15 @@ pub fn run(cli: Cli) -> Result<Outcome> {
                     sc.file
                 )));
             };
-            let out = crate::plan::assess(&sc, &given.pulse, given.run);
+            let out = crate::pipeline::assess(&sc, &given.pulse, given.run);
             let cs = report::cursors(&sc.network, &out.pulse, &times);
             let text = if common.json {
                 serde_json::to_string_pretty(&report::assess_json(&sc, &out, &cs))? + "\n"
             } else {
                 report::assess_text(&sc, &out, &cs)
             };
-            report_out(text, common.json, quiet, &out.warnings)
+            let worded = Worded::new(&sc, &out.warnings, &out.prep.run_basis);
+            report_out(text, common.json, quiet, &worded)
         }
         Command::Response {
             file,
@@ -454,12 +479,14 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             }
             let (pulse, run, warnings) = match (&sc.pulse, planned) {
                 (Some(g), false) => {
-                    let out = crate::plan::assess(&sc, &g.pulse, g.run);
-                    (out.pulse, out.run, out.warnings)
+                    let out = crate::pipeline::assess(&sc, &g.pulse, g.run);
+                    let w = Worded::new(&sc, &out.warnings, &out.prep.run_basis);
+                    (out.pulse, out.run, w)
                 }
                 _ => {
-                    let out = crate::plan::plan(&sc);
-                    (out.pulse, out.prep.run, out.warnings)
+                    let out = crate::pipeline::plan(&sc);
+                    let w = Worded::new(&sc, &out.warnings, &out.prep.run_basis);
+                    (out.pulse, out.prep.run, w)
                 }
             };
             let spin = if points > 200_000 {
@@ -473,11 +500,11 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             spin.finish_and_clear();
             warn_stderr(&warnings);
             if quiet {
-                return Ok(outcome(!warnings.is_empty()));
+                return Ok(outcome(warnings.act));
             }
             emit(
                 format!("wrote {} rows to {}\n", rows.len(), csv.display()),
-                !warnings.is_empty(),
+                warnings.act,
             )
         }
         Command::New { name } => new_scenario(&name),

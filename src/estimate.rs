@@ -9,21 +9,48 @@
 use crate::network::{Mode, Network};
 use crate::pulse::Trapezoid;
 use crate::response::{FreeResponse, Modal};
-use crate::scenario::Metric;
+use serde::Serialize;
+
+/// Which error figure a budget applies to.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum Metric {
+    /// Raw reading at t = 0⁺: y(end)/area vs h(0⁺).
+    #[serde(rename = "t0")]
+    T0,
+    /// Centroid-aligned reading: y(end)/area vs h(end − centroid).
+    #[serde(rename = "t0-aligned")]
+    T0Aligned,
+    /// Largest error over the window after the pulse.
+    #[serde(rename = "window")]
+    Window,
+}
+
+impl Metric {
+    /// Name as written in scenarios and reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            Metric::T0 => "t0",
+            Metric::T0Aligned => "t0-aligned",
+            Metric::Window => "window",
+        }
+    }
+}
 
 /// Fraction of the peak below which |h| counts as settled (0.1 %).
 pub const SETTLE_FRACTION: f64 = 1e-3;
 
 /// What the ideal impulse response looks like over time.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct IdealShape {
     /// h(0⁺).
+    #[serde(skip)]
     pub h0: f64,
     /// Peak |h(t)| for t > 0 over the examined span.
     pub peak: f64,
     /// Time of that peak.
     pub t_peak: f64,
     /// Time after which |h| stays below 0.1 % of its peak; `None` when h does not decay.
+    #[serde(rename = "settle_time")]
     pub settle: Option<f64>,
 }
 
@@ -168,12 +195,17 @@ fn grid_peak(h: &FreeResponse, grid: &[f64]) -> (f64, f64) {
 }
 
 /// What the relative figures are divided by.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 pub enum NormalisedBy {
     /// |h(0⁺)|.
+    #[serde(rename = "h0_plus")]
     H0Plus,
     /// Peak |h| (used when h(0⁺) = 0).
+    #[serde(rename = "peak")]
     Peak,
+    /// Networks with unknown residues: each mode against its own h(0⁺).
+    #[serde(rename = "each mode's own h(0+)")]
+    EachMode,
 }
 
 impl NormalisedBy {
@@ -182,12 +214,13 @@ impl NormalisedBy {
         match self {
             NormalisedBy::H0Plus => "h0_plus",
             NormalisedBy::Peak => "peak",
+            NormalisedBy::EachMode => "each mode's own h(0+)",
         }
     }
 }
 
 /// One reading against its ideal value.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Reading {
     /// y(end)/area.
     pub reading: f64,
@@ -200,7 +233,7 @@ pub struct Reading {
 }
 
 /// Errors over the window after the pulse.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct WindowError {
     /// max |y/area − h(t − c)| / normaliser.
     pub max_rel: f64,
@@ -211,7 +244,7 @@ pub struct WindowError {
 }
 
 /// First-order analytic estimate: for a unit-area pulse y ≈ h(t − c) + ½σ²h″(t − c).
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct FirstOrder {
     /// Raw error at 0⁺ ≈ h′(0⁺)(end − c) + ½σ²h″(0⁺), relative.
     pub t0_rel: f64,
@@ -226,7 +259,7 @@ pub struct FirstOrder {
 }
 
 /// The full error estimate for one pulse.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ErrorEstimate {
     /// Raw error at t = 0⁺.
     pub t0: Reading,
@@ -241,9 +274,42 @@ pub struct ErrorEstimate {
     /// Analytic estimate beside the exact figures.
     pub first_order: FirstOrder,
     /// For time-constant-only networks: the estimate per mode (each e^(−t/τ)).
-    pub per_mode: Vec<(f64, ErrorEstimate)>,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub per_mode: Vec<ModeError>,
     /// Relative rounding level of these figures (from the size of the modal sum).
+    #[serde(rename = "rounding_floor")]
     pub floor: f64,
+}
+
+/// One mode's errors, for networks whose residues are unknown (each mode e^(−t/τ) alone).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ModeError {
+    /// The mode's time constant, s.
+    pub time_constant: f64,
+    /// Raw error at 0⁺, relative to the mode's own h(0⁺).
+    pub t0_rel: f64,
+    /// Aligned error, relative.
+    pub t0_aligned_rel: f64,
+    /// Window maximum, relative.
+    pub window_max_rel: f64,
+    /// Window RMS, relative.
+    pub window_rms_rel: f64,
+    /// The mode's full estimate.
+    #[serde(skip)]
+    pub estimate: ErrorEstimate,
+}
+
+impl ModeError {
+    fn new(time_constant: f64, e: ErrorEstimate) -> ModeError {
+        ModeError {
+            time_constant,
+            t0_rel: e.t0.rel,
+            t0_aligned_rel: e.t0_aligned.rel,
+            window_max_rel: e.window.max_rel,
+            window_rms_rel: e.window.rms_rel,
+            estimate: e,
+        }
+    }
 }
 
 impl ErrorEstimate {
@@ -255,6 +321,23 @@ impl ErrorEstimate {
             Metric::Window => self.window.max_rel,
         }
     }
+}
+
+/// One cursor reading: the ideal and predicted values at a chosen instant.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Cursor {
+    /// Time, s.
+    pub t: f64,
+    /// Ideal h(t).
+    pub ideal: f64,
+    /// h(t − centroid), the ideal the reading stands for once the pulse delay is allowed for.
+    pub ideal_aligned: f64,
+    /// Predicted y(t)/area.
+    pub predicted: f64,
+    /// predicted − ideal.
+    pub difference: f64,
+    /// predicted − ideal_aligned.
+    pub difference_aligned: f64,
 }
 
 /// The network's exact machinery, prepared once and reused for many pulses.
@@ -380,6 +463,29 @@ impl Estimator {
         }
     }
 
+    /// Cursor readings of the ideal and predicted responses at the given instants.
+    pub fn cursors(&self, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
+        let driven = self.modal.drive(&pulse.breakpoints());
+        let c = pulse.centroid();
+        let area = pulse.area();
+        times
+            .iter()
+            .map(|&t| {
+                let ideal = if t > 0.0 { self.h.at(t) } else { 0.0 };
+                let ideal_aligned = if t > c { self.h.at(t - c) } else { 0.0 };
+                let predicted = driven.at(t) / area;
+                Cursor {
+                    t,
+                    ideal,
+                    ideal_aligned,
+                    predicted,
+                    difference: predicted - ideal,
+                    difference_aligned: predicted - ideal_aligned,
+                }
+            })
+            .collect()
+    }
+
     /// Window errors over [end, run].
     pub fn window(&self, pulse: &Trapezoid, run: f64) -> WindowError {
         let end = pulse.end();
@@ -452,10 +558,10 @@ impl Estimator {
     /// The full estimate for a pulse, over a run.
     pub fn estimate(&self, pulse: &Trapezoid, run: f64) -> ErrorEstimate {
         if !self.per_mode.is_empty() {
-            let per: Vec<(f64, ErrorEstimate)> = self
+            let per: Vec<ModeError> = self
                 .per_mode
                 .iter()
-                .map(|(tau, e)| (*tau, e.estimate(pulse, run)))
+                .map(|(tau, e)| ModeError::new(*tau, e.estimate(pulse, run)))
                 .collect();
             return worst_of(per);
         }
@@ -503,11 +609,11 @@ fn window_points(fastest: f64, span: f64) -> usize {
 }
 
 /// For networks with unknown residues: report the worst mode per metric.
-fn worst_of(per: Vec<(f64, ErrorEstimate)>) -> ErrorEstimate {
+fn worst_of(per: Vec<ModeError>) -> ErrorEstimate {
     let pick = |key: &dyn Fn(&ErrorEstimate) -> f64| {
         per.iter()
-            .max_by(|a, b| key(&a.1).total_cmp(&key(&b.1)))
-            .map(|p| p.1.clone())
+            .max_by(|a, b| key(&a.estimate).total_cmp(&key(&b.estimate)))
+            .map(|p| p.estimate.clone())
             .expect("a network has at least one mode")
     };
     let t0 = pick(&|e| e.t0.rel.abs());
@@ -521,7 +627,7 @@ fn worst_of(per: Vec<(f64, ErrorEstimate)>) -> ErrorEstimate {
             rms_rel: rms.window.rms_rel,
             ..win.window
         },
-        normalised_by: NormalisedBy::H0Plus,
+        normalised_by: NormalisedBy::EachMode,
         normaliser: 1.0,
         first_order: FirstOrder {
             t0_rel: t0.first_order.t0_rel,
@@ -530,7 +636,7 @@ fn worst_of(per: Vec<(f64, ErrorEstimate)>) -> ErrorEstimate {
             t0_floor: t0.first_order.t0_floor,
             t0_aligned_floor: al.first_order.t0_aligned_floor,
         },
-        floor: per.iter().map(|p| p.1.floor).fold(0.0, f64::max),
+        floor: per.iter().map(|p| p.estimate.floor).fold(0.0, f64::max),
         per_mode: per,
     }
 }

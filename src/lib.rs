@@ -1,18 +1,37 @@
 //! pulseplan: plan the finite pulse that stands in for an impulse when measuring or simulating the
 //! impulse response of a linear circuit, and predict exactly how far its response departs from h(t).
 //!
-//! Flow, one way: [`scenario`] (TOML) → [`network`] (modes) → [`plan`] (pulse) →
-//! [`response`] / [`estimate`] (exact responses and errors) → [`report`] (text, JSON, CSV).
+//! Modules in their import order, lowest first; a module names only modules above it in this
+//! list ([`units`] and [`notice`] are shared by all):
+//! [`units`] → [`notice`] → [`pulse`] → [`netlist`] → [`network`] → [`tolerance`] →
+//! [`response`] → [`estimate`] → [`plan`] → [`bench`] → [`scenario`] (TOML into the settings
+//! types above) → [`pipeline`] (the stages in order) → [`report`] (text, HTML, JSON, CSV,
+//! figures) → [`cli`].
+
+pub mod units;
+
+pub mod notice;
+
+pub mod pulse;
+
+pub mod netlist;
+
+pub mod network;
+
+pub mod tolerance;
+
+pub mod response;
+
+pub mod estimate;
+
+pub mod plan;
 
 pub mod bench;
-pub mod cli;
-pub mod estimate;
-pub mod netlist;
-pub mod network;
-pub mod plan;
-pub mod pulse;
-pub mod report;
-pub mod response;
+
 pub mod scenario;
-pub mod tolerance;
-pub mod units;
+
+pub mod pipeline;
+
+pub mod report;
+
+pub mod cli;

@@ -1,33 +1,151 @@
 //! Choosing the pulse: the rule of thumb, the widest pulse within an error budget, the run
-//! length, and the warnings a pulse deserves.
+//! length, and the warnings a pulse deserves against the network. The bench stage (limits,
+//! noise, repetition, capture) comes after, in [`crate::bench`].
 
-use crate::bench::{BenchPlan, practical};
-use crate::estimate::{ErrorEstimate, Estimator, IdealShape, NormalisedBy};
-use crate::network::Network;
+use crate::estimate::{ErrorEstimate, Estimator, IdealShape, Metric, NormalisedBy};
+use crate::network::{Form, Network, NetworkSpec};
+use crate::notice::{Note, Warning};
 use crate::pulse::Trapezoid;
-use crate::scenario::{DriveKind, PlanSettings, Scenario};
-use crate::units::{Dim, eng};
+use crate::tolerance::ToleranceReport;
+use num_complex::Complex64;
+use serde::Serialize;
 
-/// The usual extra-low-voltage limit for a pulse generator's output: 60 V (the common touch-safe
-/// DC figure for safety extra-low voltage; recalled from memory of common practice, no source checked).
-pub const HAZARD_VOLTS: f64 = 60.0;
-
-/// A warning with a stable code and plain words.
-#[derive(Debug, Clone, PartialEq, serde::Serialize)]
-pub struct Warning {
-    /// Stable identifier, e.g. `pulse-wide-for-budget`.
-    pub code: &'static str,
-    /// What is wrong and what to do.
-    pub message: String,
+/// The `[plan]` settings with defaults applied.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlanSettings {
+    /// Error budget as a fraction; `None` → rule of thumb.
+    pub target_error: Option<f64>,
+    /// Metric the budget applies to.
+    pub metric: Metric,
+    /// Fastest time scale / width for the rule of thumb.
+    pub width_ratio: f64,
+    /// Width / 10–90 % edge.
+    pub edge_ratio: f64,
+    /// The planned width never exceeds τ_fast / this (and a wider pulse is warned about).
+    pub min_width_ratio: f64,
+    /// A mode whose share of Σ dominance is below this does not set the pulse's time scale.
+    pub significance: f64,
+    /// Monte Carlo samples for tolerances (None: corners when parts are few).
+    pub samples: Option<usize>,
+    /// Seed of the Monte Carlo draw.
+    pub seed: u64,
+    /// Run length in slowest time constants.
+    pub settle_multiple: f64,
 }
 
-fn warn(code: &'static str, message: String) -> Warning {
-    Warning { code, message }
+impl Default for PlanSettings {
+    fn default() -> Self {
+        // The trade's rule of thumb (common practice, no source): width ≈ τ_fast/100,
+        // edges ≈ width/100, run ≥ 5 τ_slow, and never wider than τ_fast/10.
+        PlanSettings {
+            target_error: None,
+            metric: Metric::T0,
+            width_ratio: 100.0,
+            edge_ratio: 100.0,
+            min_width_ratio: 10.0,
+            // Modes under 1 % of the response's L1 bound are not significant (our choice).
+            significance: 0.01,
+            samples: None,
+            seed: 1,
+            settle_multiple: 5.0,
+        }
+    }
+}
+
+/// One mode as the planner sees it: its figures and its share of the response.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ModeFigures {
+    /// Pole, rad/s.
+    pub pole: Complex64,
+    /// Multiplicity.
+    pub multiplicity: usize,
+    /// Laurent coefficients r₁, r₂… (None when the residues are unknown).
+    pub residues: Option<Vec<Complex64>>,
+    /// Decay time constant 1/|Re p|, s (None on the imaginary axis).
+    pub time_constant: Option<f64>,
+    /// |p|, rad/s.
+    pub natural_frequency: f64,
+    /// Damping ratio (None at the origin).
+    pub damping: Option<f64>,
+    /// Share of Σ dominance.
+    pub share: f64,
+    /// Whether the mode sizes the pulse.
+    pub significant: bool,
+}
+
+/// The network's figures for reports: modes, zeros, direct term, h(0⁺), shape, time scales.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NetworkFacts {
+    /// Scenario form.
+    pub form: Form,
+    /// Order (poles with multiplicity).
+    pub order: usize,
+    /// Each distinct pole.
+    pub modes: Vec<ModeFigures>,
+    /// Zeros, rad/s.
+    pub zeros: Vec<Complex64>,
+    /// Direct term D.
+    pub direct: f64,
+    /// Coefficients of s, s², … beyond D.
+    pub improper: Vec<f64>,
+    /// Whether the residues are known.
+    pub residues_known: bool,
+    /// h(0⁺) from the modes (None when residues are unknown).
+    pub h0_plus: Option<f64>,
+    /// h(0⁺) by the initial-value theorem.
+    pub h0_plus_ivt: Option<f64>,
+    /// Peak |h| and settling.
+    #[serde(flatten)]
+    pub shape: IdealShape,
+    /// Fastest time scale 1/max|p|, s.
+    pub tau_fast: f64,
+    /// Fastest significant time scale, s.
+    pub tau_fast_significant: f64,
+    /// Slowest decay 1/min|Re p|, s.
+    pub tau_slow: Option<f64>,
+    /// Every pole in the open left half-plane.
+    pub stable: bool,
+}
+
+/// What set the run length, with its numbers.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "rule", rename_all = "kebab-case")]
+pub enum RunBasis {
+    /// |h| stays below 0.1 % of its peak after `settle`, longer than `multiple` × τ_slow.
+    Settle {
+        /// Settling time, s.
+        settle: f64,
+        /// The multiple of τ_slow it exceeds.
+        multiple: f64,
+    },
+    /// `multiple` × the slowest time constant.
+    TimeConstants {
+        /// The multiple.
+        multiple: f64,
+        /// τ_slow, s.
+        tau: f64,
+    },
+    /// Unstable or marginal networks: `multiple` × the slowest decaying time constant.
+    DecayingModes {
+        /// The multiple.
+        multiple: f64,
+        /// τ of the slowest decaying mode, s.
+        tau: f64,
+    },
+    /// No mode decays: `multiple` × the slowest time scale 1/|p|.
+    SlowestScale {
+        /// The multiple.
+        multiple: f64,
+        /// 1/|p|, s.
+        scale: f64,
+    },
 }
 
 /// A network prepared for planning: its ideal shape, time scales and the exact estimator.
 #[derive(Debug, Clone)]
 pub struct Prepared {
+    /// The figures reports show.
+    pub facts: NetworkFacts,
     /// Fastest time scale 1/max|p| over all modes, s.
     pub tau_fast: f64,
     /// Fastest time scale over the significant modes, s: what the pulse is sized against.
@@ -42,12 +160,141 @@ pub struct Prepared {
     pub shape: IdealShape,
     /// Run length, s.
     pub run: f64,
-    /// In words, what set the run length.
-    pub run_basis: String,
+    /// What set the run length.
+    pub run_basis: RunBasis,
     /// The exact estimator.
     pub estimator: Estimator,
     /// Warnings that belong to the network itself.
     pub warnings: Vec<Warning>,
+}
+
+/// The usual figures of one mode.
+fn mode_figures(net: &Network, shares: &[f64], significant: &[bool]) -> Vec<ModeFigures> {
+    net.modes
+        .iter()
+        .enumerate()
+        .map(|(i, m)| ModeFigures {
+            pole: m.pole,
+            multiplicity: m.multiplicity(),
+            residues: net.residues_known.then(|| m.residues.clone()),
+            time_constant: (m.pole.re != 0.0).then(|| m.time_constant()),
+            natural_frequency: m.natural_frequency(),
+            damping: m.damping(),
+            share: shares[i],
+            significant: significant[i],
+        })
+        .collect()
+}
+
+fn network_facts(
+    net: &Network,
+    shape: &IdealShape,
+    sig: &crate::network::Significance,
+) -> NetworkFacts {
+    let known = net.residues_known;
+    NetworkFacts {
+        form: net.form,
+        order: net.order(),
+        modes: mode_figures(net, &sig.shares, &sig.significant),
+        zeros: net.zeros.clone(),
+        direct: net.direct,
+        improper: net.improper.clone(),
+        residues_known: known,
+        h0_plus: known.then(|| net.h0_plus()),
+        h0_plus_ivt: known.then_some(net.h0_ivt),
+        shape: shape.clone(),
+        tau_fast: net.tau_fast(),
+        tau_fast_significant: sig.tau,
+        tau_slow: net.tau_slow(),
+        stable: net.stable(),
+    }
+}
+
+/// The run length and what set it: the longer of k·τ_slow and the settling time for stable
+/// networks; k times the slowest decaying (or slowest) time scale otherwise.
+fn run_length(net: &Network, shape: &IdealShape, k: f64) -> (f64, RunBasis) {
+    let tau_slow = net.tau_slow();
+    if net.stable() {
+        let slow = tau_slow.unwrap_or_else(|| net.tau_fast());
+        let by_tau = k * slow;
+        return match shape.settle {
+            Some(settle) if settle > by_tau => (
+                settle,
+                RunBasis::Settle {
+                    settle,
+                    multiple: k,
+                },
+            ),
+            _ => (
+                by_tau,
+                RunBasis::TimeConstants {
+                    multiple: k,
+                    tau: slow,
+                },
+            ),
+        };
+    }
+    match tau_slow {
+        Some(tau) => (k * tau, RunBasis::DecayingModes { multiple: k, tau }),
+        None => {
+            let w = net
+                .modes
+                .iter()
+                .map(|m| m.natural_frequency())
+                .filter(|&w| w > 0.0)
+                .fold(f64::INFINITY, f64::min);
+            (
+                k / w,
+                RunBasis::SlowestScale {
+                    multiple: k,
+                    scale: 1.0 / w,
+                },
+            )
+        }
+    }
+}
+
+/// Warnings that belong to the network itself, whatever the pulse.
+fn network_warnings(net: &Network, shape: &IdealShape, estimator: &Estimator) -> Vec<Warning> {
+    let mut warnings = Vec::new();
+    // Modal sums lose digits when large residues cancel: the rounding of Σ|r| relative to the
+    // normaliser bounds the relative accuracy of every figure.
+    let floor = estimator.rounding_floor();
+    if floor > 1e-9 {
+        warnings.push(Warning::RoundingLoss {
+            amplification: floor / f64::EPSILON,
+            floor,
+        });
+    }
+    for m in net.unstable_modes().filter(|m| m.pole.im >= 0.0) {
+        warnings.push(Warning::NetworkUnstable {
+            pole: m.pole,
+            doubling: std::f64::consts::LN_2 / m.pole.re,
+        });
+    }
+    for m in net.marginal_modes().filter(|m| m.pole.im >= 0.0) {
+        warnings.push(Warning::NetworkMarginal { pole: m.pole });
+    }
+    if net.is_improper() {
+        warnings.push(Warning::NetworkImproper {
+            coefficients: net.improper.clone(),
+        });
+    }
+    let h0_modes = net.h0_plus();
+    let scale = shape.peak.max(h0_modes.abs()).max(net.h0_ivt.abs());
+    if (h0_modes - net.h0_ivt).abs() > 1e-6 * scale {
+        warnings.push(Warning::H0Disagrees {
+            from_modes: h0_modes,
+            from_ivt: net.h0_ivt,
+        });
+    }
+    if estimator.normalised_by() == NormalisedBy::Peak {
+        warnings.push(Warning::H0Zero {
+            peak: shape.peak,
+            t_peak: shape.t_peak,
+        });
+    }
+    warnings
 }
 
 /// Analyse the network's time scales and prepare the estimator.
@@ -55,150 +302,24 @@ pub fn prepare(net: &Network, settings: &PlanSettings) -> Prepared {
     let h = crate::response::Modal::new(net).impulse();
     let shape = IdealShape::of(net, &h);
     let estimator = Estimator::new(net, &shape);
-    let tau_fast = net.tau_fast();
-    let tau_slow = net.tau_slow();
-    let crate::network::Significance {
-        shares,
-        significant,
-        tau: tau_plan,
-    } = net.significance(settings.significance);
-    let mut warnings = Vec::new();
-    let k = settings.settle_multiple;
-    let (run, run_basis) = if net.stable() {
-        let slow = tau_slow.expect("a stable network has a decaying mode");
-        let by_tau = k * slow;
-        match shape.settle {
-            Some(ts) if ts > by_tau => (
-                ts,
-                format!(
-                    "time until |h| stays below 0.1 % of its peak ({}), longer than {k} × τ_slow",
-                    eng(ts, Dim::Time)
-                ),
-            ),
-            _ => (
-                by_tau,
-                format!("{k} × slowest time constant ({})", eng(slow, Dim::Time)),
-            ),
-        }
-    } else {
-        let (run, basis) = match tau_slow {
-            Some(slow) => (
-                k * slow,
-                format!(
-                    "{k} × slowest decaying time constant ({}); the non-decaying modes never settle",
-                    eng(slow, Dim::Time)
-                ),
-            ),
-            None => {
-                let w = net
-                    .modes
-                    .iter()
-                    .map(|m| m.natural_frequency())
-                    .filter(|&w| w > 0.0)
-                    .fold(f64::INFINITY, f64::min);
-                (
-                    k / w,
-                    format!(
-                        "{k} × slowest time scale 1/|p| ({}); no mode decays",
-                        eng(1.0 / w, Dim::Time)
-                    ),
-                )
-            }
-        };
-        (run, basis)
-    };
-    // Modal sums lose digits when large residues cancel: the rounding of Σ|r| relative to the
-    // normaliser bounds the relative accuracy of every figure.
-    let loss = estimator.rounding_floor();
-    if loss > 1e-9 {
-        warnings.push(warn(
-            "network-ill-conditioned",
-            format!(
-                "the modes' residues are up to {:.1e} times the size of h itself and cancel in the sum: \
-                 relative figures carry rounding of about {loss:.0e}",
-                loss / f64::EPSILON
-            ),
-        ));
-    }
-    for m in net.unstable_modes().filter(|m| m.pole.im >= 0.0) {
-        warnings.push(warn(
-            "network-unstable",
-            format!(
-                "pole {} is in the right half-plane: h(t) grows without bound (doubling every {}); \
-                 the run length is based on the {}",
-                fmt_pole(m.pole),
-                eng(std::f64::consts::LN_2 / m.pole.re, Dim::Time),
-                run_basis
-            ),
-        ));
-    }
-    for m in net.marginal_modes().filter(|m| m.pole.im >= 0.0) {
-        warnings.push(warn(
-            "network-marginal",
-            format!(
-                "pole {} lies on the imaginary axis: that mode never decays; the run length is based on the {}",
-                fmt_pole(m.pole),
-                run_basis
-            ),
-        ));
-    }
-    if net.is_improper() {
-        warnings.push(warn(
-            "network-improper",
-            "the numerator's degree exceeds the denominator's: h(t) holds derivatives of δ(t) \
-             that no unit-area pulse can stand for; those terms are left out of every figure"
-                .into(),
-        ));
-    }
-    let h0_modes = net.h0_plus();
-    let scale = shape.peak.max(h0_modes.abs()).max(net.h0_ivt.abs());
-    if (h0_modes - net.h0_ivt).abs() > 1e-6 * scale {
-        warnings.push(warn(
-            "network-ill-conditioned",
-            format!(
-                "h(0⁺) from the modes ({h0_modes:e}) and from the initial-value theorem ({:e}) disagree: \
-                 the poles are too ill-conditioned for the figures to be trusted",
-                net.h0_ivt
-            ),
-        ));
-    }
-    if estimator.normalised_by() == NormalisedBy::Peak {
-        warnings.push(warn(
-            "h0-zero",
-            format!(
-                "h(0⁺) = 0 for this network, so relative errors are given against the peak |h| ({}) at {}",
-                fmt_value(shape.peak),
-                eng(shape.t_peak, Dim::Time)
-            ),
-        ));
-    }
+    let sig = net.significance(settings.significance);
+    let (run, run_basis) = run_length(net, &shape, settings.settle_multiple);
     Prepared {
-        tau_fast,
-        tau_plan,
-        shares,
-        significant,
-        tau_slow,
+        facts: network_facts(net, &shape, &sig),
+        warnings: network_warnings(net, &shape, &estimator),
+        tau_fast: net.tau_fast(),
+        tau_plan: sig.tau,
+        shares: sig.shares,
+        significant: sig.significant,
+        tau_slow: net.tau_slow(),
         shape,
         run,
         run_basis,
         estimator,
-        warnings,
     }
 }
 
-fn fmt_pole(p: num_complex::Complex64) -> String {
-    if p.im == 0.0 {
-        format!("{} rad/s", fmt_value(p.re))
-    } else {
-        format!("{} ± j{} rad/s", fmt_value(p.re), fmt_value(p.im.abs()))
-    }
-}
-
-fn fmt_value(v: f64) -> String {
-    crate::units::eng_plain(v, 4)
-}
-
-/// A unit-area... or any-area pulse of 50 % width `w` with edges tied by the edge ratio.
+/// A pulse of area `area` and 50 % width `w` with edges tied by the edge ratio.
 pub fn tied_pulse(area: f64, width: f64, edge_ratio: f64) -> Trapezoid {
     Trapezoid::with_area(area, width, width / edge_ratio)
         .expect("edge_ratio > 1.25 always leaves a flat top")
@@ -220,6 +341,8 @@ pub enum Target {
         width: f64,
         /// Metric value there.
         value: f64,
+        /// The `[plan] min_width_ratio` that capped it.
+        ratio: f64,
     },
     /// Even the narrowest width tried misses the budget.
     Unreachable {
@@ -228,6 +351,49 @@ pub enum Target {
         /// Metric value there.
         value: f64,
     },
+}
+
+/// The budget search as a report states it (the widening is the planned width over the
+/// rule-of-thumb width).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Budget {
+    /// The search's outcome.
+    pub target: Target,
+    /// Planned width / rule-of-thumb width, when the budget was met.
+    pub widening: Option<f64>,
+}
+
+impl Serialize for Budget {
+    fn serialize<S: serde::Serializer>(&self, ser: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeMap;
+        let mut m = ser.serialize_map(None)?;
+        match self.target {
+            Target::Met { width, value } => {
+                m.serialize_entry("met", &true)?;
+                m.serialize_entry("width", &width)?;
+                m.serialize_entry("value", &value)?;
+                m.serialize_entry("widening", &self.widening)?;
+            }
+            Target::Capped {
+                width,
+                value,
+                ratio,
+            } => {
+                m.serialize_entry("met", &true)?;
+                m.serialize_entry("capped", &true)?;
+                m.serialize_entry("width", &width)?;
+                m.serialize_entry("value", &value)?;
+                m.serialize_entry("widening", &self.widening)?;
+                m.serialize_entry("cap_ratio", &ratio)?;
+            }
+            Target::Unreachable { width, value } => {
+                m.serialize_entry("met", &false)?;
+                m.serialize_entry("narrowest_tried", &width)?;
+                m.serialize_entry("value", &value)?;
+            }
+        }
+        m.end()
+    }
 }
 
 /// Search for the widest pulse whose metric stays within the budget, with all narrower widths
@@ -254,16 +420,15 @@ pub fn widest_within(
         loop {
             let next = lo * step;
             if next > ceiling {
-                return if f(ceiling) <= budget {
-                    Target::Capped {
+                if f(ceiling) <= budget {
+                    return Target::Capped {
                         width: ceiling,
                         value: f(ceiling),
-                    }
-                } else {
-                    // Bisect between lo and the cap.
-                    hi = ceiling;
-                    break;
-                };
+                        ratio: settings.min_width_ratio,
+                    };
+                }
+                hi = ceiling;
+                break;
             }
             if f(next) > budget {
                 hi = next;
@@ -302,41 +467,41 @@ pub fn widest_within(
     }
 }
 
-/// The recommended pulse for a scenario.
+/// How tolerances changed the plan.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Robust {
+    /// Width the nominal network allows, s.
+    pub nominal_width: f64,
+    /// Width every examined case allows, s.
+    pub width: f64,
+    /// Run the nominal network needs, s.
+    pub nominal_run: f64,
+    /// Run covering the slowest case, s.
+    pub run: f64,
+}
+
+/// The plan stage's choice: the rule-of-thumb pulse, the budget search, the tolerances, and
+/// the pulse it recommends before the bench's limits.
 #[derive(Debug, Clone)]
-pub struct PlanOutcome {
-    /// The prepared network.
+pub struct PulseChoice {
+    /// The prepared network (its run may be stretched to cover the tolerance cases).
     pub prep: Prepared,
     /// The rule-of-thumb pulse.
     pub rule: Trapezoid,
-    /// The rule-of-thumb pulse's errors.
+    /// Its errors.
     pub rule_estimate: ErrorEstimate,
     /// The error-budget search, when a budget was given.
-    pub target: Option<Target>,
-    /// The pulse the budget search chose, before the bench's limits (equal to `pulse` on an
-    /// unconstrained simulator).
-    pub ideal_pulse: Trapezoid,
-    /// The recommended pulse, as delivered at the circuit's input.
+    pub budget: Option<Budget>,
+    /// The recommended pulse (requested area, chosen width, tied edges).
     pub pulse: Trapezoid,
-    /// Its errors.
-    pub estimate: ErrorEstimate,
-    /// Planned width / rule-of-thumb width, when a budget was met.
-    pub widening: Option<f64>,
-    /// The bench's view: limits, noise, period, capture.
-    pub bench: BenchPlan,
     /// Tolerance spread, for netlists whose parts carry tolerances.
-    pub tolerance: Option<crate::tolerance::ToleranceReport>,
+    pub tolerance: Option<ToleranceReport>,
     /// How tolerances narrowed the width and stretched the run.
     pub robust: Option<Robust>,
-    /// Plain notes about the plan.
-    pub notes: Vec<String>,
-    /// Warnings.
+    /// Notes.
+    pub notes: Vec<Note>,
+    /// Warnings from the network, the tolerances and the budget search.
     pub warnings: Vec<Warning>,
-}
-
-/// Plan a pulse for the scenario.
-pub fn plan(sc: &Scenario) -> PlanOutcome {
-    plan_with_progress(sc, &|_, _| {})
 }
 
 /// Width a prepared network allows: the budget search, or the rule of thumb without a budget.
@@ -352,40 +517,51 @@ fn allowed_width(prep: &Prepared, s: &PlanSettings) -> (Option<Target>, f64) {
     (target, width)
 }
 
-/// Plan a pulse, reporting progress of long steps (tolerance cases) as (done, total).
-pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync)) -> PlanOutcome {
-    let s = &sc.plan;
-    let mut prep = prepare(&sc.network, s);
+/// The tolerance analysis of a netlist, with a note when corners are too many.
+fn tolerances(
+    spec: &NetworkSpec,
+    s: &PlanSettings,
+    progress: &(dyn Fn(usize, usize) + Sync),
+    notes: &mut Vec<Note>,
+) -> Option<ToleranceReport> {
+    let NetworkSpec::Netlist(spec) = spec else {
+        return None;
+    };
+    let parts = crate::tolerance::toleranced_parts(spec);
+    let total = match s.samples {
+        Some(n) => n,
+        None if parts <= crate::tolerance::MAX_CORNER_PARTS => 1 << parts,
+        None => {
+            notes.push(Note::TooManyCorners { parts });
+            0
+        }
+    };
+    crate::tolerance::analyse(spec, s.significance, s.samples, s.seed, &|k| {
+        progress(k, total)
+    })
+    .ok()
+    .flatten()
+}
+
+/// Choose the pulse for a network: rule of thumb, budget search, tolerance-robust width and
+/// run. `progress` reports long steps (tolerance cases) as (done, total).
+pub fn choose(
+    net: &Network,
+    spec: &NetworkSpec,
+    area: f64,
+    s: &PlanSettings,
+    progress: &(dyn Fn(usize, usize) + Sync),
+) -> PulseChoice {
+    let mut prep = prepare(net, s);
     let rule_width = prep.tau_plan / s.width_ratio;
-    let rule = tied_pulse(sc.area, rule_width, s.edge_ratio);
+    let rule = tied_pulse(area, rule_width, s.edge_ratio);
     let rule_estimate = prep.estimator.estimate(&rule, prep.run);
     let (target, mut width) = allowed_width(&prep, s);
     let widening = matches!(target, Some(Target::Met { .. } | Target::Capped { .. }))
         .then_some(width / rule_width);
-    // Tolerances: the width must suit the fastest case, the run must cover the slowest.
-    let mut tol_warnings = Vec::new();
     let mut notes = Vec::new();
-    let tolerance = match &sc.network_spec {
-        crate::network::NetworkSpec::Netlist(spec) => {
-            let parts = crate::tolerance::toleranced_parts(spec);
-            let total = match s.samples {
-                Some(n) => n,
-                None if parts <= crate::tolerance::MAX_CORNER_PARTS => 1 << parts,
-                None => {
-                    notes.push(format!(
-                        "{parts} parts carry tolerances, too many for corners: give --samples N for a Monte Carlo spread"
-                    ));
-                    0
-                }
-            };
-            crate::tolerance::analyse(spec, s.significance, s.samples, s.seed, &|k| {
-                progress(k, total)
-            })
-            .ok()
-            .flatten()
-        }
-        _ => None,
-    };
+    let mut warnings = prep.warnings.clone();
+    let tolerance = tolerances(spec, s, progress, &mut notes);
     let mut robust = None;
     if let Some(rep) = &tolerance {
         let fast = prepare(&rep.fastest, s);
@@ -401,70 +577,25 @@ pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync
             run: prep.run,
         });
         if rep.failures > 0 {
-            tol_warnings.push(warn(
-                "tolerance-cases-failed",
-                format!(
-                    "{} tolerance case(s) could not be analysed (the circuit became singular there); the spread covers the rest",
-                    rep.failures
-                ),
-            ));
+            warnings.push(Warning::ToleranceCasesFailed {
+                failures: rep.failures,
+            });
         }
     }
-    let pulse = tied_pulse(sc.area, width, s.edge_ratio);
-    let est = &prep.estimator;
-    let mut bench = practical(sc, &prep, &pulse, true);
-    let mut ideal_pulse = pulse;
-    // With output noise, the plan takes the width that needs the fewest averages to meet the
-    // budget (the widest pulse within the bias budget would leave no room for noise).
-    if let (Some(sigma), Some(_)) = (
-        sc.bench.capture.as_ref().and_then(|c| c.noise),
-        bench.noise.as_ref(),
-    ) {
-        let budget = bench.budget;
-        let limited = (!bench.scaling.reasons.is_empty()).then_some(bench.pulse.amplitude.abs());
-        let w_hi = pulse.width_50();
-        if let Some((w, _)) =
-            crate::bench::fewest_averages(est, s, limited, sc.area, sigma, prep.run, w_hi, budget)
-            && (w / w_hi - 1.0).abs() > 0.01
-        {
-            ideal_pulse = tied_pulse(sc.area, w, s.edge_ratio);
-            bench = practical(sc, &prep, &ideal_pulse, true);
-            notes.push(format!(
-                "with the output noise of [capture], the width needing the fewest averages for the budget is {} \
-                 (the bias alone would allow {})",
-                eng(w, Dim::Time),
-                eng(w_hi, Dim::Time)
-            ));
-        }
+    if let (Some(Target::Unreachable { width, value }), Some(budget)) = (&target, s.target_error) {
+        warnings.push(Warning::BudgetUnreachable {
+            metric: s.metric.name(),
+            budget,
+            width: *width,
+            value: *value,
+        });
     }
-    let pulse = bench.pulse;
-    let estimate = bench.estimate.clone();
-    let mut warnings = prep.warnings.clone();
-    warnings.extend(tol_warnings);
-    if let Some(Target::Unreachable { width, value }) = &target {
-        warnings.push(warn(
-            "budget-unreachable",
-            format!(
-                "no pulse meets the {} budget of {}: even {} wide gives {}; the rule-of-thumb pulse is shown instead",
-                s.metric.name(),
-                crate::units::percent_unsigned(s.target_error.unwrap_or(0.0)),
-                eng(*width, Dim::Time),
-                crate::units::percent_unsigned(*value)
-            ),
-        ));
-    }
-    warnings.extend(pulse_warnings(sc, &prep, &pulse, &estimate, None));
-    warnings.extend(bench.warnings.iter().cloned());
-    PlanOutcome {
+    PulseChoice {
+        pulse: tied_pulse(area, width, s.edge_ratio),
         prep,
         rule,
         rule_estimate,
-        target,
-        ideal_pulse,
-        pulse,
-        estimate,
-        widening,
-        bench,
+        budget: target.map(|target| Budget { target, widening }),
         tolerance,
         robust,
         notes,
@@ -472,174 +603,48 @@ pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync
     }
 }
 
-/// How tolerances changed the plan.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Robust {
-    /// Width the nominal network allows, s.
-    pub nominal_width: f64,
-    /// Width every examined case allows, s.
-    pub width: f64,
-    /// Run the nominal network needs, s.
-    pub nominal_run: f64,
-    /// Run covering the slowest case, s.
-    pub run: f64,
-}
-
-/// The evaluation of the scenario's own pulse.
-#[derive(Debug, Clone)]
-pub struct AssessOutcome {
-    /// The prepared network.
-    pub prep: Prepared,
-    /// The pulse assessed.
-    pub pulse: Trapezoid,
-    /// Run used for the window (the stated one, or the planned run length).
-    pub run: f64,
-    /// Its errors.
-    pub estimate: ErrorEstimate,
-    /// The pulse checked against the bench.
-    pub bench: BenchPlan,
-    /// Warnings.
-    pub warnings: Vec<Warning>,
-}
-
-/// Assess a given pulse.
-pub fn assess(sc: &Scenario, pulse: &Trapezoid, stated_run: Option<f64>) -> AssessOutcome {
-    let prep = prepare(&sc.network, &sc.plan);
-    let run = stated_run.unwrap_or(prep.run);
-    let estimate = prep.estimator.estimate(pulse, run);
-    let mut warnings = prep.warnings.clone();
-    warnings.extend(pulse_warnings(sc, &prep, pulse, &estimate, stated_run));
-    let bench = practical(sc, &prep, pulse, false);
-    warnings.extend(bench.warnings.iter().cloned());
-    AssessOutcome {
-        prep,
-        pulse: *pulse,
-        run,
-        estimate,
-        bench,
-        warnings,
-    }
-}
-
-/// Warnings about one pulse against the network, the budget and safety.
+/// Warnings about one pulse against the network and the budget.
 pub fn pulse_warnings(
-    sc: &Scenario,
+    s: &PlanSettings,
     prep: &Prepared,
     pulse: &Trapezoid,
     estimate: &ErrorEstimate,
     stated_run: Option<f64>,
 ) -> Vec<Warning> {
     let mut out = Vec::new();
-    let s = &sc.plan;
     let width = pulse.width_50();
     if let Some(budget) = s.target_error {
         let value = estimate.metric(s.metric);
         if value > budget * (1.0 + 1e-9) {
-            out.push(warn(
-                "pulse-wide-for-budget",
-                format!(
-                    "the {} error is {} against a budget of {}: the pulse is too wide (or its edges too slow) \
-                     for the reading to be trusted to that level",
-                    s.metric.name(),
-                    crate::units::percent_unsigned(value),
-                    crate::units::percent_unsigned(budget)
-                ),
-            ));
+            out.push(Warning::PulseWideForBudget {
+                metric: s.metric.name(),
+                value,
+                budget,
+            });
         }
     }
     if width > prep.tau_plan / s.min_width_ratio * (1.0 + 1e-9) {
-        out.push(warn(
-            "pulse-wide-for-network",
-            format!(
-                "the 50 % width {} exceeds 1/{} of the fastest significant time scale ({}): the \
-                 response will look like a pulse response, not like h(t)",
-                eng(width, Dim::Time),
-                s.min_width_ratio,
-                eng(prep.tau_plan, Dim::Time)
-            ),
-        ));
+        out.push(Warning::PulseWideForNetwork {
+            width,
+            ratio: s.min_width_ratio,
+            tau: prep.tau_plan,
+        });
     }
     let edge = pulse.rise_10_90().max(pulse.fall_10_90());
     if edge > width / 10.0 {
-        out.push(warn(
-            "pulse-slow-edges",
-            format!(
-                "10–90 % edges of {} take more than 1/10 of the {} width (common practice, no source): \
-                 the pulse is closer to a triangle than a rectangle and its centroid shifts",
-                eng(edge, Dim::Time),
-                eng(width, Dim::Time)
-            ),
-        ));
+        out.push(Warning::PulseSlowEdges { edge, width });
     }
     if width < prep.tau_plan * 1e-6 {
-        out.push(warn(
-            "pulse-narrow",
-            format!(
-                "the width {} is below 10⁻⁶ of the fastest time scale: the reading gains nothing \
-                 in accuracy while the amplitude (and the noise share) grows",
-                eng(width, Dim::Time)
-            ),
-        ));
+        out.push(Warning::PulseNarrow {
+            width,
+            tau: prep.tau_plan,
+        });
     }
     if let (Some(run), Some(settle)) = (stated_run, prep.shape.settle) {
         let need = prep.run.max(settle);
         if run < need {
-            out.push(warn(
-                "run-short",
-                format!(
-                    "the stated run of {} is shorter than the settle time {} ({}): the tail of h(t) is cut off",
-                    eng(run, Dim::Time),
-                    eng(need, Dim::Time),
-                    prep.run_basis
-                ),
-            ));
+            out.push(Warning::RunShort { run, need });
         }
     }
-    if sc.drive == DriveKind::Voltage && pulse.amplitude.abs() > HAZARD_VOLTS {
-        let safe_area = pulse.area() * HAZARD_VOLTS / pulse.amplitude.abs();
-        out.push(warn(
-            "hazard-voltage",
-            format!(
-                "CAUTION: an area of {} in a pulse {} wide needs {} — above the {} V extra-low-voltage \
-                 limit. Consider an area of {} or less (amplitude ≤ {} V) and scale the reading back by \
-                 1/area. Hazardous voltages need appropriate equipment and insulation; follow local \
-                 electrical-safety rules and qualified practice.",
-                crate::report::with_unit(pulse.area(), sc.drive.area_unit()),
-                eng(width, Dim::Time),
-                eng(pulse.amplitude, Dim::Voltage),
-                HAZARD_VOLTS,
-                crate::report::with_unit(safe_area, sc.drive.area_unit()),
-                HAZARD_VOLTS
-            ),
-        ));
-    }
     out
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::scenario::parse;
-
-    #[test]
-    fn single_pole_budget_width_matches_closed_form() {
-        // For a rectangle-like pulse into one pole, the t0 error is 1 − (1 − e^(−x))/x
-        // (handbook closed form); a 1 % budget is met at x ≈ 0.020135 (solved by hand with
-        // Newton's method, from memory of the expansion x/2 − x²/6; checked by the assertion
-        // that the closed form gives 1 % there).
-        let text = "[network]\nnumerator = [1000]\ndenominator = [1, 1000]\n[plan]\ntarget_error = \"1 %\"\nedge_ratio = 1e6\n";
-        let sc = parse("t.toml", "t", text).unwrap();
-        let out = plan(&sc);
-        let Some(Target::Met { width, value }) = out.target else {
-            panic!("budget must be met")
-        };
-        let x = width * 1000.0;
-        let closed = 1.0 - (-(-x).exp_m1()) / x;
-        assert!(
-            (closed - 0.01).abs() < 1e-6,
-            "x = {x}, closed form {closed}"
-        );
-        assert!(value <= 0.01);
-        assert!(out.widening.unwrap() > 1.5);
-    }
 }

@@ -188,6 +188,28 @@ impl Trapezoid {
     }
 }
 
+/// Serialised with both conventions' figures (ramp view and IEEE Std 181 generator view) and
+/// the derived timing: amplitude, area, width (50 %), flat, rise, fall, rise_10_90,
+/// fall_10_90, centroid, sigma, end.
+impl serde::Serialize for Trapezoid {
+    fn serialize<S: serde::Serializer>(&self, ser: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeStruct;
+        let mut st = ser.serialize_struct("Trapezoid", 11)?;
+        st.serialize_field("amplitude", &self.amplitude)?;
+        st.serialize_field("area", &self.area())?;
+        st.serialize_field("width", &self.width_50())?;
+        st.serialize_field("flat", &self.flat)?;
+        st.serialize_field("rise", &self.rise)?;
+        st.serialize_field("fall", &self.fall)?;
+        st.serialize_field("rise_10_90", &self.rise_10_90())?;
+        st.serialize_field("fall_10_90", &self.fall_10_90())?;
+        st.serialize_field("centroid", &self.centroid())?;
+        st.serialize_field("sigma", &self.variance().sqrt())?;
+        st.serialize_field("end", &self.end())?;
+        st.end()
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -14,7 +14,7 @@ pub const MAX_DIFFERENCED_PARTS: usize = 40;
 const SENSITIVITY_STEP: f64 = 1e-4;
 
 /// Nominal value and range over the cases examined.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
 pub struct Spread {
     /// Value with every part nominal.
     pub nominal: f64,
@@ -85,21 +85,26 @@ pub enum Method {
 }
 
 /// The spread and the extreme cases.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, serde::Serialize)]
 pub struct ToleranceReport {
     /// How the cases were chosen.
     pub method: Method,
     /// Fastest significant time scale, s.
+    #[serde(rename = "tau_fast_significant")]
     pub tau_fast: Spread,
     /// Slowest time constant, s.
     pub tau_slow: Spread,
     /// h(0⁺).
+    #[serde(rename = "h0_plus")]
     pub h0: Spread,
     /// Per-part sensitivities, most influential first.
+    #[serde(rename = "sensitivity")]
     pub sensitivities: Vec<Sensitivity>,
     /// The case with the fastest significant time scale (the width must suit it).
+    #[serde(skip)]
     pub fastest: Network,
     /// The case with the slowest time constant (the run must cover it).
+    #[serde(skip)]
     pub slowest: Network,
     /// Cases that could not be analysed (e.g. a corner that makes the circuit singular).
     pub failures: usize,
@@ -359,6 +364,40 @@ pub fn analyse(
         slowest,
         failures,
     }))
+}
+
+impl serde::Serialize for Sensitivity {
+    fn serialize<S: serde::Serializer>(&self, ser: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeStruct;
+        let mut st = ser.serialize_struct("Sensitivity", 6)?;
+        st.serialize_field("part", &self.part)?;
+        st.serialize_field("tolerance", &self.tolerance)?;
+        st.serialize_field("d_tau_fast", &self.tau_fast)?;
+        st.serialize_field("d_tau_slow", &self.tau_slow)?;
+        st.serialize_field("d_h0_plus", &self.h0)?;
+        st.serialize_field("influence", &self.influence())?;
+        st.end()
+    }
+}
+
+impl serde::Serialize for Method {
+    fn serialize<S: serde::Serializer>(&self, ser: S) -> Result<S::Ok, S::Error> {
+        use serde::ser::SerializeStruct;
+        let mut st = ser.serialize_struct("Method", 4)?;
+        match *self {
+            Method::Corners { count } => {
+                st.serialize_field("kind", "corners")?;
+                st.serialize_field("cases", &count)?;
+            }
+            Method::MonteCarlo { samples, seed } => {
+                st.serialize_field("kind", "monte-carlo")?;
+                st.serialize_field("cases", &samples)?;
+                st.serialize_field("seed", &seed)?;
+                st.serialize_field("distribution", "uniform within each tolerance band")?;
+            }
+        }
+        st.end()
+    }
 }
 
 #[cfg(test)]

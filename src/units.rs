@@ -68,6 +68,51 @@ impl Dim {
     }
 }
 
+/// What a signal is: the stimulus (drive) and the observed output are each a voltage or a current.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Signal {
+    /// Volts.
+    Voltage,
+    /// Amperes.
+    Current,
+}
+
+impl Signal {
+    /// Its dimension.
+    pub fn dim(self) -> Dim {
+        match self {
+            Signal::Voltage => Dim::Voltage,
+            Signal::Current => Dim::Current,
+        }
+    }
+
+    /// Its unit symbol.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            Signal::Voltage => "V",
+            Signal::Current => "A",
+        }
+    }
+
+    /// Unit of a pulse area of this signal.
+    pub fn area_unit(self) -> &'static str {
+        match self {
+            Signal::Voltage => "V·s",
+            Signal::Current => "A·s",
+        }
+    }
+}
+
+/// Unit of h(t) for a drive and an output: output/(drive·s), written "/s" when the two cancel.
+pub fn h_unit(drive: Signal, output: Signal) -> String {
+    if drive == output {
+        "/s".to_string()
+    } else {
+        format!("{}/({}·s)", output.symbol(), drive.symbol())
+    }
+}
+
 /// Why a quantity string could not be read.
 #[derive(Debug, Error, Clone, PartialEq)]
 pub enum UnitError {

@@ -1,8 +1,10 @@
 //! The bench stage: limits are never exceeded, scaling keeps the reading, the stimulus export
 //! integrates to the area, noise averages as 1/√N.
 
-use pulseplan::bench::{generator_sheet, stimulus_csv};
-use pulseplan::plan::{HAZARD_VOLTS, plan};
+use pulseplan::bench::HAZARD_VOLTS;
+use pulseplan::pipeline::plan;
+use pulseplan::report::{generator_sheet, stimulus_csv};
+
 use pulseplan::scenario::parse;
 
 /// A small deterministic generator (SplitMix64) so the sweeps are repeatable without a crate.
@@ -66,7 +68,10 @@ fn plans_never_exceed_a_stated_limit() {
         let ctx = format!("case {case}:\n{text}");
         assert!(p.amplitude.abs() <= g.max_amplitude.unwrap() * tol, "{ctx}");
         assert!(p.amplitude.abs() <= l.max_input.unwrap() * tol, "{ctx}");
-        assert!(b.peak_output <= l.max_output.unwrap() * tol, "{ctx}");
+        assert!(
+            b.amplitude.peak_output <= l.max_output.unwrap() * tol,
+            "{ctx}"
+        );
         assert!(p.width_50() >= g.min_width.unwrap() / tol, "{ctx}");
         assert!(p.rise_10_90() >= g.min_edge.unwrap() / tol, "{ctx}");
         assert!(
@@ -88,7 +93,7 @@ fn plans_never_exceed_a_stated_limit() {
         // A hazardous amplitude always carries the caution.
         if p.amplitude.abs() > HAZARD_VOLTS {
             assert!(
-                out.warnings.iter().any(|w| w.code == "hazard-voltage"),
+                out.warnings.iter().any(|w| w.code() == "hazard-voltage"),
                 "{ctx}"
             );
         }
@@ -107,7 +112,7 @@ fn limited_amplitude_scales_area_not_reading() {
     let p = &limited.pulse;
     assert!((p.amplitude - 3.0).abs() < 1e-12);
     assert!((p.area() - 3.0 * p.width_50()).abs() < 1e-18);
-    assert!((limited.bench.scaling.read_factor() - 1.0 / p.area()).abs() < 1e-9 / p.area());
+    assert!((limited.bench.amplitude.scaling.read_factor - 1.0 / p.area()).abs() < 1e-9 / p.area());
     let (r1, r2) = (free.estimate.t0.reading, limited.estimate.t0.reading);
     assert!(((r1 - r2) / r1).abs() < 1e-12, "{r1} vs {r2}");
 }
@@ -135,7 +140,7 @@ fn stimulus_export_integrates_to_the_area() {
         .sum();
     assert!((integral - out.pulse.area()).abs() < 1e-9 * out.pulse.area());
     assert!(pts.windows(2).all(|w| w[1].0 >= w[0].0));
-    let sheet = generator_sheet(&sc, &out.bench, &out.warnings);
+    let sheet = generator_sheet(&sc, &out);
     assert!(sheet.contains("pulse width (50 %)"));
     assert!(sheet.contains("RAMP VIEW"));
 }
@@ -168,8 +173,8 @@ fn white_noise_averages_down_as_root_n() {
     let out = plan(&parse("n.toml", "n", text).unwrap());
     let b = &out.bench;
     let noise_one = 2e-3 / (out.pulse.area() * out.prep.estimator.normaliser());
-    let room = 0.01 - out.estimate.metric(pulseplan::scenario::Metric::T0);
-    let n = b.averages.unwrap() as f64;
+    let room = 0.01 - out.estimate.metric(pulseplan::estimate::Metric::T0);
+    let n = b.noise.averages.unwrap() as f64;
     assert!(noise_one / n.sqrt() <= room * (1.0 + 1e-12));
     assert!(
         noise_one / (n - 1.0).max(1.0).sqrt() > room || n == 1.0,

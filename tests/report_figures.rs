@@ -2,7 +2,8 @@
 //! axis mapping each figure records in its metadata and compared with response.csv and with the
 //! planner's own numbers; the HTML report is checked for escaping and self-containment.
 
-use pulseplan::plan::{self, PlanOutcome};
+use pulseplan::pipeline::{self, PlanOutcome};
+use pulseplan::plan;
 use pulseplan::report::{self, figures};
 use pulseplan::scenario::{self, Scenario};
 use std::path::PathBuf;
@@ -44,7 +45,7 @@ metric = "window"
 
 fn planned(text: &str, name: &str) -> (Scenario, PlanOutcome) {
     let sc = scenario::parse(&format!("{name}.toml"), name, text).unwrap();
-    let out = plan::plan(&sc);
+    let out = pipeline::plan(&sc);
     (sc, out)
 }
 

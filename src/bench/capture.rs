@@ -1,7 +1,9 @@
 //! The capture plan: sample interval, record length with pre-trigger, memory, averaging.
 
 use super::Capture;
+use crate::notice::Warning;
 use crate::pulse::Trapezoid;
+use serde::Serialize;
 
 /// Samples across the 50 % width (common practice, no source).
 pub const SAMPLES_PER_WIDTH: f64 = 10.0;
@@ -12,7 +14,7 @@ pub const PRE_TRIGGER_SHARE: f64 = 0.1;
 
 /// A second, coarser record for the tail when one record cannot hold both the fine sampling
 /// and the whole run.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct Record {
     /// Sample interval, s.
     pub interval: f64,
@@ -22,8 +24,16 @@ pub struct Record {
     pub points: u64,
 }
 
+/// What the capture triggers on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum Trigger {
+    /// The generator's sync (trigger) output, rising edge.
+    #[serde(rename = "generator sync output, rising edge")]
+    GeneratorSync,
+}
+
 /// Capture settings.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CapturePlan {
     /// Sample interval of the main record, s.
     pub sample_interval: f64,
@@ -43,6 +53,8 @@ pub struct CapturePlan {
     pub split: Option<(Record, Record)>,
     /// Samples across the 50 % width actually obtained (below the aim when the rate is limited).
     pub samples_across_pulse: f64,
+    /// What to trigger on.
+    pub trigger: Trigger,
 }
 
 /// Plan the capture for a pulse, the fastest significant time scale and the run.
@@ -88,7 +100,27 @@ pub fn plan_capture(
         fits_memory,
         split,
         samples_across_pulse: pulse.width_50() / interval,
+        trigger: Trigger::GeneratorSync,
     }
+}
+
+/// Warnings about the capture: memory too small, too few samples across the pulse.
+pub fn warnings(cap: &CapturePlan, pulse: &Trapezoid) -> Vec<Warning> {
+    let mut out = Vec::new();
+    if !cap.fits_memory {
+        out.push(Warning::CaptureMemory {
+            points: cap.points,
+            interval: cap.sample_interval,
+            record: cap.record_length,
+        });
+    }
+    if cap.samples_across_pulse < SAMPLES_PER_WIDTH * (1.0 - 1e-9) {
+        out.push(Warning::CaptureUndersampled {
+            samples: cap.samples_across_pulse,
+            width: pulse.width_50(),
+        });
+    }
+    out
 }
 
 #[cfg(test)]

@@ -1,18 +1,30 @@
-//! The bench: generator, capture and circuit limits, and what they do to a plan — amplitude
-//! limits, timing resolution, the circuit's linear range, noise and averaging, repetition, the
-//! capture settings — plus the settings sheet and the stimulus export.
+//! The bench: generator, capture and circuit limits, and what they do to a planned pulse. One
+//! step per concern, each with its own result: timing ([`timing`]), amplitude and range
+//! ([`amplitude`]), noise and averages ([`noise`]), repetition ([`repeat`]) and the capture
+//! ([`capture`]); [`fit`] runs them in that order.
 
-mod capture;
-mod noise;
-mod practical;
-mod repeat;
-mod sheet;
+pub mod amplitude;
+pub mod capture;
+pub mod noise;
+pub mod repeat;
+pub mod timing;
 
-pub use capture::{CapturePlan, plan_capture};
-pub use noise::{NoiseCurves, fewest_averages, noise_curves};
-pub use practical::{BenchPlan, Scaling, practical};
-pub use repeat::{choose_period, tail_error};
-pub use sheet::{generator_sheet, stimulus_csv};
+pub use amplitude::{AmplitudeFit, ScaleReason, Scaling};
+pub use capture::{CapturePlan, Record};
+pub use noise::{NoiseCurves, NoiseFit};
+pub use repeat::PeriodChoice;
+pub use timing::TimingChange;
+
+use crate::estimate::ErrorEstimate;
+use crate::notice::{Note, Warning};
+use crate::plan::{PlanSettings, Prepared};
+use crate::pulse::Trapezoid;
+use crate::units::Signal;
+use serde::Serialize;
+
+/// The usual extra-low-voltage limit for a pulse generator's output: 60 V (the common touch-safe
+/// DC figure for safety extra-low voltage; recalled from memory of common practice, no source checked).
+pub const HAZARD_VOLTS: f64 = 60.0;
 
 /// Which load the generator's amplitude display assumes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -125,6 +137,123 @@ impl Generator {
             r = ((hi / step + 1e-9).floor() * step).max(step);
         }
         r
+    }
+}
+
+/// What the bench stage needs to know besides the pulse: the drive, the plan settings and the
+/// bench sections.
+#[derive(Debug, Clone, Copy)]
+pub struct BenchInput<'a> {
+    /// Voltage or current drive.
+    pub drive: Signal,
+    /// `[plan]`.
+    pub plan: &'a PlanSettings,
+    /// `[generator]`, `[capture]`, `[limits]`.
+    pub bench: &'a Bench,
+    /// Whether the residues (and so the size of h) are known.
+    pub residues_known: bool,
+}
+
+/// The plan as the bench will run it: each step's result.
+#[derive(Debug, Clone, Serialize)]
+pub struct BenchPlan {
+    /// The pulse the bench stage started from (after the noise step's choice of width).
+    #[serde(skip)]
+    pub planned: Trapezoid,
+    /// The pulse at the circuit's input (after every limit and rounding).
+    #[serde(skip)]
+    pub pulse: Trapezoid,
+    /// Amplitude, display and range.
+    #[serde(flatten)]
+    pub amplitude: AmplitudeFit,
+    /// Errors of the delivered pulse.
+    #[serde(skip)]
+    pub estimate: ErrorEstimate,
+    /// Metric before and after rounding/limits changed the timing, when they did.
+    pub timing_change: Option<TimingChange>,
+    /// Repetition period (None when a mode does not decay: single shot only).
+    pub period: Option<PeriodChoice>,
+    /// Noise curves and averages.
+    #[serde(flatten)]
+    pub noise: NoiseFit,
+    /// Capture settings.
+    pub capture: CapturePlan,
+    /// The budget the bench stage worked to: `[plan] target_error`, or without one the pulse's
+    /// own error (at least 0.1 %).
+    pub budget: f64,
+    /// Warnings raised by the bench stage.
+    #[serde(skip)]
+    pub warnings: Vec<Warning>,
+    /// Notes (what was changed and why).
+    #[serde(skip)]
+    pub notes: Vec<Note>,
+}
+
+/// The budget the bench works to: the user's, or the pulse's own error (at least 0.1 %).
+fn working_budget(s: &PlanSettings, estimate: &ErrorEstimate) -> f64 {
+    s.target_error
+        .unwrap_or_else(|| estimate.metric(s.metric).max(1e-3))
+}
+
+/// Fit a planned pulse to the bench (`adapt`: timing and amplitude are changed to respect the
+/// limits), or only check a given pulse against it (`adapt` false).
+pub fn fit(inp: &BenchInput, prep: &Prepared, planned: &Trapezoid, adapt: bool) -> BenchPlan {
+    let gen_ = inp.bench.generator.clone().unwrap_or_default();
+    let s = inp.plan;
+    let est = &prep.estimator;
+    let mut warnings = Vec::new();
+    let mut notes = Vec::new();
+    let timed = if adapt {
+        timing::fit(planned, &gen_)
+    } else {
+        timing::TimingFit {
+            pulse: *planned,
+            note: None,
+        }
+    };
+    notes.extend(timed.note);
+    let amp = amplitude::fit(inp, prep, &timed.pulse, planned.area(), adapt);
+    warnings.extend(amp.warnings.iter().cloned());
+    notes.extend(amp.notes.iter().cloned());
+    let pulse = amp.pulse;
+    let estimate = est.estimate(&pulse, prep.run);
+    let timing_change = timing::change(est, s, planned, &pulse, &estimate, prep.run);
+    if adapt {
+        warnings.extend(timing::too_slow(s, timing_change));
+    }
+    let budget = working_budget(s, &estimate);
+    let noise = noise::assess(inp, prep, &pulse, &estimate, budget);
+    warnings.extend(noise.warnings.iter().cloned());
+    notes.extend(noise.notes.iter().cloned());
+    let period = repeat::choose_period(
+        est,
+        &pulse,
+        prep.run,
+        budget,
+        s.metric,
+        inp.bench.generator.as_ref(),
+    );
+    warnings.extend(repeat::warnings(period.as_ref()));
+    let cap = capture::plan_capture(
+        &pulse,
+        prep.tau_plan,
+        prep.run,
+        inp.bench.capture.as_ref(),
+        noise.fit.averages.unwrap_or(1),
+    );
+    warnings.extend(capture::warnings(&cap, &pulse));
+    BenchPlan {
+        planned: *planned,
+        pulse,
+        amplitude: amp.fit,
+        estimate,
+        timing_change,
+        period,
+        noise: noise.fit,
+        capture: cap,
+        budget,
+        warnings,
+        notes,
     }
 }
 

@@ -1,12 +1,15 @@
 //! Signal-to-noise: at a fixed amplitude, a wider pulse carries more area (less noise in the
 //! reading y/area) but more bias. The total error against width, and the averages needed.
 
-use crate::estimate::Estimator;
-use crate::plan::tied_pulse;
-use crate::scenario::PlanSettings;
+use super::BenchInput;
+use crate::estimate::{ErrorEstimate, Estimator};
+use crate::notice::{Note, Warning};
+use crate::plan::{PlanSettings, Prepared, tied_pulse};
+use crate::pulse::Trapezoid;
+use serde::Serialize;
 
 /// The three error curves against width, and the width that minimises the total.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct NoiseCurves {
     /// 50 % widths, s (log-spaced).
     pub widths: Vec<f64>,
@@ -149,4 +152,109 @@ pub fn fewest_averages(
     }
     let averages = (g(lo).powi(2)).ceil().max(1.0) as u64;
     Some((lo, averages))
+}
+
+/// The noise step's figures.
+#[derive(Debug, Clone, PartialEq, Default, Serialize)]
+pub struct NoiseFit {
+    /// Noise curves, with `[capture] noise`.
+    pub noise: Option<NoiseCurves>,
+    /// Averages needed for the budget (None: not reachable, or no noise given).
+    pub averages: Option<u64>,
+}
+
+/// The noise step's result.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct NoiseStep {
+    /// Figures.
+    pub fit: NoiseFit,
+    /// Warnings.
+    pub warnings: Vec<Warning>,
+    /// Notes.
+    pub notes: Vec<Note>,
+}
+
+/// Noise and averaging for the delivered pulse: the curves against width at its amplitude,
+/// and the averages that bring bias + noise/√N within the budget (white noise).
+pub fn assess(
+    inp: &BenchInput,
+    prep: &Prepared,
+    pulse: &Trapezoid,
+    estimate: &ErrorEstimate,
+    budget: f64,
+) -> NoiseStep {
+    let capture = inp.bench.capture.as_ref();
+    let Some(sigma) = capture.and_then(|c| c.noise) else {
+        return NoiseStep::default();
+    };
+    if !inp.residues_known {
+        return NoiseStep {
+            notes: vec![Note::NoiseNeedsResidues],
+            ..NoiseStep::default()
+        };
+    }
+    let s = inp.plan;
+    let est = &prep.estimator;
+    let w_hi = prep.tau_plan / s.min_width_ratio;
+    let w_lo = (w_hi / 1e4).min(pulse.width_50() / 10.0);
+    let curves = noise_curves(est, s, pulse.amplitude, sigma, prep.run, w_lo, w_hi);
+    let bias_now = estimate.metric(s.metric);
+    let noise_now = sigma / (pulse.area().abs() * est.normaliser());
+    let room = budget - bias_now;
+    let needed = (room > 0.0).then(|| ((noise_now / room).powi(2)).ceil().max(1.0) as u64);
+    let max_avg = capture.and_then(|c| c.max_averages);
+    let mut warnings = Vec::new();
+    match (needed, max_avg) {
+        (None, _) => warnings.push(Warning::NoiseBudgetUnreachable {
+            bias: bias_now,
+            budget,
+        }),
+        (Some(n), Some(m)) if n as f64 > m => warnings.push(Warning::AveragesExceedCapture {
+            needed: n,
+            max_averages: m,
+            budget,
+            noise: noise_now,
+        }),
+        _ => {}
+    }
+    let notes = vec![Note::NoiseAtPulse {
+        noise: noise_now,
+        bias: bias_now,
+        best_width: curves.best_width,
+    }];
+    NoiseStep {
+        fit: NoiseFit {
+            noise: Some(curves),
+            averages: needed,
+        },
+        warnings,
+        notes,
+    }
+}
+
+/// With output noise, the width that needs the fewest averages to meet the budget, when it
+/// differs from the planned width by more than 1 % (the widest pulse within the bias budget
+/// would leave no room for noise). `delivered` is the bench's fit of the planned pulse.
+pub fn better_width(
+    inp: &BenchInput,
+    prep: &Prepared,
+    planned: &Trapezoid,
+    delivered: &super::BenchPlan,
+) -> Option<f64> {
+    let sigma = inp.bench.capture.as_ref().and_then(|c| c.noise)?;
+    delivered.noise.noise.as_ref()?;
+    let limited = (!delivered.amplitude.scaling.reasons.is_empty())
+        .then_some(delivered.pulse.amplitude.abs());
+    let w_hi = planned.width_50();
+    let (w, _) = fewest_averages(
+        &prep.estimator,
+        inp.plan,
+        limited,
+        planned.area(),
+        sigma,
+        prep.run,
+        w_hi,
+        delivered.budget,
+    )?;
+    ((w / w_hi - 1.0).abs() > 0.01).then_some(w)
 }

@@ -2,9 +2,10 @@
 //! below a tenth of the budget.
 
 use super::Generator;
-use crate::estimate::Estimator;
+use crate::estimate::{Estimator, Metric};
+use crate::notice::Warning;
 use crate::pulse::Trapezoid;
-use crate::scenario::Metric;
+use serde::Serialize;
 
 /// Relative error the earlier pulses of a train with this period add: (at the reading t = end,
 /// largest over [end, end + run]). `None` when a mode does not decay.
@@ -26,7 +27,7 @@ pub fn tail_error(est: &Estimator, pulse: &Trapezoid, period: f64, run: f64) -> 
 }
 
 /// The outcome of choosing a repetition period.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct PeriodChoice {
     /// Period, s (a multiple of the generator's time step when it has one).
     pub period: f64,
@@ -95,4 +96,17 @@ pub fn choose_period(
         target,
         met: tail <= target,
     })
+}
+
+/// Warnings about the repetition: single shots only, or a period too short for the budget.
+pub fn warnings(period: Option<&PeriodChoice>) -> Option<Warning> {
+    match period {
+        None => Some(Warning::SingleShotOnly),
+        Some(p) if !p.met => Some(Warning::PeriodTooShort {
+            period: p.period,
+            tail: p.tail,
+            target: p.target,
+        }),
+        _ => None,
+    }
 }

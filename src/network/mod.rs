@@ -143,15 +143,19 @@ pub struct Significance {
 }
 
 /// Which scenario form a network came from.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 pub enum Form {
     /// `time_constants`.
+    #[serde(rename = "time constants")]
     TimeConstants,
     /// `numerator`/`denominator`.
+    #[serde(rename = "transfer polynomials")]
     Polynomial,
     /// `poles`/`zeros`/`gain`.
+    #[serde(rename = "poles, zeros and gain")]
     ZeroPoleGain,
     /// A netlist (through a state space).
+    #[serde(rename = "netlist")]
     Netlist,
 }
 

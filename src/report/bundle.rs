@@ -2,7 +2,7 @@
 //! plan JSON, every file written atomically.
 
 use super::figures::{FigureOptions, plan_figures};
-use crate::plan::PlanOutcome;
+use crate::pipeline::PlanOutcome;
 use crate::scenario::Scenario;
 use std::path::{Path, PathBuf};
 
@@ -40,7 +40,7 @@ pub fn write_bundle_with(
     };
     // With output noise, the design figure also shows the noise and total curves.
     let noise_curves: Vec<super::figures::ExtraCurve> =
-        match (&out.bench.noise, opts.figures.extra_curves.is_empty()) {
+        match (&out.bench.noise.noise, opts.figures.extra_curves.is_empty()) {
             (Some(n), true) => vec![
                 super::figures::ExtraCurve {
                     label: "noise, one acquisition".into(),
@@ -91,19 +91,16 @@ pub fn write_bundle_with(
     let path = dir.join("plan.json");
     super::write_atomic(&path, (json + "\n").as_bytes())?;
     written.push(path);
-    let sheet = crate::bench::generator_sheet(sc, &out.bench, &out.warnings);
+    let sheet = super::generator_sheet(sc, out);
     let path = dir.join("generator.txt");
     super::write_atomic(&path, sheet.as_bytes())?;
     written.push(path);
     let unit = match sc.drive {
-        crate::scenario::DriveKind::Voltage => "V",
-        crate::scenario::DriveKind::Current => "A",
+        crate::units::Signal::Voltage => "V",
+        crate::units::Signal::Current => "A",
     };
     let path = dir.join("stimulus.csv");
-    super::write_atomic(
-        &path,
-        crate::bench::stimulus_csv(&out.bench, unit).as_bytes(),
-    )?;
+    super::write_atomic(&path, super::stimulus_csv(&out.bench, unit).as_bytes())?;
     written.push(path);
     Ok(written)
 }

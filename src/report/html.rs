@@ -2,30 +2,18 @@
 //! external references) that prints cleanly to PDF.
 
 use super::figures::Figure;
+use super::markup::escape;
+use super::words::{self, Context};
 use crate::estimate::{ErrorEstimate, NormalisedBy};
 use crate::network::{Network, NetworkSpec};
-use crate::plan::{PlanOutcome, Target, Warning};
+use crate::notice::Warning;
+use crate::pipeline::PlanOutcome;
+use crate::plan::Target;
 use crate::pulse::Trapezoid;
-use crate::scenario::{DriveKind, Scenario};
-use crate::units::{Dim, eng, percent, percent_unsigned, plain};
+use crate::scenario::Scenario;
+use crate::units::{Dim, Signal, eng, percent, percent_unsigned, plain};
 use num_complex::Complex64;
 use std::fmt::Write as _;
-
-/// Escape text for HTML and XML (element content and quoted attributes).
-pub fn escape(s: &str) -> String {
-    let mut out = String::with_capacity(s.len());
-    for ch in s.chars() {
-        match ch {
-            '&' => out.push_str("&amp;"),
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '"' => out.push_str("&quot;"),
-            '\'' => out.push_str("&#39;"),
-            c => out.push(c),
-        }
-    }
-    out
-}
 
 const CSS: &str = r#"
 :root { --ink:#22262b; --soft:#5d646c; --line:#d5d9de; --accent:#114b63; --warm:#b0692e; --paper:#fbfaf7; --tint:#eef3f6; --warn:#fff4e5; --warnline:#d08a2f; }
@@ -246,7 +234,11 @@ fn bench_html(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
     }
     let _ = writeln!(s, "</tbody></table>");
     for n in &b.notes {
-        let _ = writeln!(s, "<p class=\"note\">{}</p>", escape(n));
+        let _ = writeln!(
+            s,
+            "<p class=\"note\">{}</p>",
+            escape(&words::note_text(n, sc.drive))
+        );
     }
     let _ = writeln!(s, "</section>");
 }
@@ -345,7 +337,7 @@ fn group(s: &mut String, head: &str, span: usize) {
     );
 }
 
-fn pulses_table(s: &mut String, cols: &[(&str, &Trapezoid)], run: f64, drive: DriveKind) {
+fn pulses_table(s: &mut String, cols: &[(&str, &Trapezoid)], run: f64, drive: Signal) {
     let _ = write!(s, "<table><thead><tr><th></th>");
     for (h, _) in cols {
         let _ = write!(s, "<th>{}</th>", escape(h));
@@ -380,6 +372,7 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
     let norm = match e.normalised_by {
         NormalisedBy::H0Plus => "|h(0⁺)|",
         NormalisedBy::Peak => "the peak |h| (h(0⁺) = 0)",
+        NormalisedBy::EachMode => "each mode's own h(0⁺)",
     };
     if e.per_mode.is_empty() {
         let _ = writeln!(
@@ -422,16 +415,16 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
             "<table><thead><tr><th>mode τ</th><th>raw at 0⁺</th><th>aligned</th><th>window max</th>\
              <th>window RMS</th></tr></thead><tbody>"
         );
-        for (tau, m) in &e.per_mode {
+        for m in &e.per_mode {
             let _ = writeln!(
                 s,
                 "<tr><th>{}</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
                  <td class=\"num\">{}</td></tr>",
-                escape(&eng(*tau, Dim::Time)),
-                escape(&percent(m.t0.rel)),
-                escape(&percent(m.t0_aligned.rel)),
-                escape(&percent_unsigned(m.window.max_rel)),
-                escape(&percent_unsigned(m.window.rms_rel))
+                escape(&eng(m.time_constant, Dim::Time)),
+                escape(&percent(m.t0_rel)),
+                escape(&percent(m.t0_aligned_rel)),
+                escape(&percent_unsigned(m.window_max_rel)),
+                escape(&percent_unsigned(m.window_rms_rel))
             );
         }
         let _ = writeln!(
@@ -460,21 +453,26 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
 fn budget_text(sc: &Scenario, out: &PlanOutcome) -> String {
     let metric = sc.plan.metric.name();
     let budget = percent_unsigned(sc.plan.target_error.unwrap_or(0.0));
-    match &out.target {
+    let widening = out.budget.as_ref().and_then(|b| b.widening).unwrap_or(1.0);
+    match out.budget.as_ref().map(|b| &b.target) {
         Some(Target::Met { width, value }) => format!(
             "Budget {budget} on the {metric} error: the widest pulse within it is {} wide (error {}), \
              {:.2}× the rule-of-thumb width.",
             eng(*width, Dim::Time),
             percent_unsigned(*value),
-            out.widening.unwrap_or(1.0)
+            widening
         ),
-        Some(Target::Capped { width, value }) => format!(
+        Some(Target::Capped {
+            width,
+            value,
+            ratio,
+        }) => format!(
             "Budget {budget} on the {metric} error would allow a wider pulse; the width is capped at \
              (fastest significant time scale)/{} = {} (error {}), {:.2}× the rule-of-thumb width.",
-            sc.plan.min_width_ratio,
+            ratio,
             eng(*width, Dim::Time),
             percent_unsigned(*value),
-            out.widening.unwrap_or(1.0)
+            widening
         ),
         Some(Target::Unreachable { width, value }) => format!(
             "Budget {budget} on the {metric} error cannot be met: even {} wide gives {}. The \
@@ -489,7 +487,7 @@ fn budget_text(sc: &Scenario, out: &PlanOutcome) -> String {
     }
 }
 
-fn warnings_html(s: &mut String, ws: &[Warning]) {
+fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
     if ws.is_empty() {
         let _ = writeln!(s, "<p class=\"ok\">No warnings.</p>");
         return;
@@ -499,8 +497,8 @@ fn warnings_html(s: &mut String, ws: &[Warning]) {
         let _ = writeln!(
             s,
             "<li><code>{}</code> {}</li>",
-            escape(w.code),
-            escape(&w.message)
+            escape(w.code()),
+            escape(&words::warning_text(w, cx))
         );
     }
     let _ = writeln!(s, "</ul>");
@@ -581,7 +579,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         &mut s,
         "amplitude",
         &eng(p.amplitude, dim),
-        sc.drive == DriveKind::Voltage && p.amplitude.abs() > crate::plan::HAZARD_VOLTS,
+        sc.drive == Signal::Voltage && p.amplitude.abs() > crate::bench::HAZARD_VOLTS,
     );
     card(
         &mut s,
@@ -616,7 +614,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
          <tr><th>drive</th><td>{}, area {}</td></tr>\
          <tr><th>budget</th><td>{}</td></tr></tbody></table>",
         escape(&sc.name),
-        if sc.drive == DriveKind::Voltage {
+        if sc.drive == Signal::Voltage {
             "voltage"
         } else {
             "current"
@@ -739,7 +737,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         sc.plan.width_ratio,
         sc.plan.edge_ratio
     );
-    if out.widening.is_some() {
+    if out.budget.as_ref().is_some_and(|b| b.widening.is_some()) {
         pulses_table(
             &mut s,
             &[("rule of thumb", &out.rule), ("recommended", &out.pulse)],
@@ -752,7 +750,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
     let _ = writeln!(
         s,
         "<p class=\"note\">Run length basis: {}.</p></section>",
-        escape(&prep.run_basis)
+        escape(&words::run_basis_text(&prep.run_basis))
     );
 
     bench_html(&mut s, sc, out);
@@ -764,7 +762,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         "<section><h2>Predicted error of the recommended pulse</h2>"
     );
     errors_table(&mut s, e);
-    if out.widening.is_some() {
+    if out.budget.as_ref().is_some_and(|b| b.widening.is_some()) {
         let r = &out.rule_estimate;
         let _ = writeln!(
             s,
@@ -778,7 +776,12 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
 
     // Warnings and cautions.
     let _ = writeln!(s, "<section><h2>Warnings</h2>");
-    warnings_html(&mut s, &out.warnings);
+    let basis = words::run_basis_text(&prep.run_basis);
+    let cx = Context {
+        drive: sc.drive,
+        run_basis: &basis,
+    };
+    warnings_html(&mut s, &out.warnings, &cx);
     let _ = writeln!(
         s,
         "<h3>Cautions</h3><ul class=\"cautions\">\
@@ -789,10 +792,11 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
          <li>The predictions are exact for the model given. A real circuit is linear only over a \
          range: keep the pulse within its ratings and linear range.</li>\
          <li>Relative errors are referred to {}, as stated with every figure.</li></ul></section>",
-        crate::plan::HAZARD_VOLTS,
+        crate::bench::HAZARD_VOLTS,
         match e.normalised_by {
             NormalisedBy::H0Plus => "|h(0⁺)|",
             NormalisedBy::Peak => "the peak |h|",
+            NormalisedBy::EachMode => "each mode's own h(0⁺)",
         }
     );
 

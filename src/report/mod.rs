@@ -6,31 +6,24 @@ mod csv_out;
 pub mod figures;
 pub mod html;
 mod json;
+pub mod markup;
+pub mod sheet;
 mod text;
+pub mod words;
 
 pub use bundle::{BundleOptions, write_bundle, write_bundle_with};
 pub use csv_out::{response_rows, write_atomic, write_response_csv};
 pub use html::plan_html;
-pub use json::{assess_json, error_json, network_json, plan_json, pulse_json};
-pub use text::{assess_text, plan_text, with_unit};
+pub use json::{assess_json, plan_json};
+pub use sheet::{generator_sheet, stimulus_csv};
+pub use text::{assess_text, plan_text};
+pub use words::with_unit;
 
+pub use crate::estimate::Cursor;
 use crate::network::{Mode, Network};
 use crate::pulse::Trapezoid;
 use crate::response::Modal;
 use crate::units::{Dim, eng};
-
-/// One cursor reading: ideal and predicted values at a chosen instant.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Cursor {
-    /// Time, s.
-    pub t: f64,
-    /// Ideal h(t).
-    pub ideal: f64,
-    /// h(t − centroid), the ideal the reading stands for once the pulse delay is allowed for.
-    pub ideal_aligned: f64,
-    /// Predicted y(t)/area.
-    pub predicted: f64,
-}
 
 /// Read cursors on the predicted and ideal responses.
 pub fn cursors(net: &Network, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
@@ -41,11 +34,18 @@ pub fn cursors(net: &Network, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
     let area = pulse.area();
     times
         .iter()
-        .map(|&t| Cursor {
-            t,
-            ideal: if t > 0.0 { h.at(t) } else { 0.0 },
-            ideal_aligned: if t > c { h.at(t - c) } else { 0.0 },
-            predicted: driven.at(t) / area,
+        .map(|&t| {
+            let ideal = if t > 0.0 { h.at(t) } else { 0.0 };
+            let ideal_aligned = if t > c { h.at(t - c) } else { 0.0 };
+            let predicted = driven.at(t) / area;
+            Cursor {
+                t,
+                ideal,
+                ideal_aligned,
+                predicted,
+                difference: predicted - ideal,
+                difference_aligned: predicted - ideal_aligned,
+            }
         })
         .collect()
 }
@@ -82,14 +82,15 @@ pub(crate) fn bench_lines(
 ) -> Vec<(&'static str, String)> {
     use crate::units::{eng_plain, percent_unsigned, plain};
     let dim = sc.drive.dim();
+    let a = &b.amplitude;
     let mut lines = Vec::new();
-    if b.open_over_display != 1.0 {
+    if a.open_over_display != 1.0 {
         lines.push((
             "generator display",
             format!(
                 "set the high level to {} ({}× that reaches a high-impedance input: {})",
-                eng(b.display_amplitude, dim),
-                plain(b.open_over_display),
+                eng(a.display_amplitude, dim),
+                plain(a.open_over_display),
                 eng(b.pulse.amplitude, dim)
             ),
         ));
@@ -98,16 +99,16 @@ pub(crate) fn bench_lines(
         "area",
         format!(
             "{}, read h(t) ≈ y(t) × {}",
-            with_unit(b.scaling.area, sc.drive.area_unit()),
-            eng_plain(b.scaling.read_factor(), 5)
+            with_unit(a.scaling.area, sc.drive.area_unit()),
+            eng_plain(a.scaling.read_factor, 5)
         ),
     ));
     lines.push((
         "peaks",
         format!(
             "input {}, predicted output {}",
-            eng(b.peak_input, dim),
-            eng_plain(b.peak_output, 5)
+            eng(a.peak_input, dim),
+            eng_plain(a.peak_output, 5)
         ),
     ));
     lines.push((

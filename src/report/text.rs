@@ -1,10 +1,13 @@
 //! The human-readable text report.
 
 use super::Cursor;
+use super::words::{self, Context, with_unit};
 use crate::bench::BenchPlan;
 use crate::estimate::ErrorEstimate;
 use crate::network::Network;
-use crate::plan::{AssessOutcome, PlanOutcome, Prepared, Target, Warning};
+use crate::notice::Warning;
+use crate::pipeline::{AssessOutcome, PlanOutcome};
+use crate::plan::{Prepared, Target};
 use crate::pulse::Trapezoid;
 use crate::scenario::Scenario;
 use crate::units::{Dim, eng, eng_number, percent, percent_unsigned, plain};
@@ -23,11 +26,6 @@ fn pole_text(z: num_complex::Complex64) -> String {
             im.trim_end()
         )
     }
-}
-
-/// A value in engineering notation followed by a compound unit: 5e-3, "V·s" → "5 mV·s".
-pub fn with_unit(v: f64, unit: &str) -> String {
-    format!("{}{unit}", eng_number(v, 4))
 }
 
 fn value_text(v: f64) -> String {
@@ -210,6 +208,7 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
     let norm = match e.normalised_by {
         crate::estimate::NormalisedBy::H0Plus => "|h(0⁺)|",
         crate::estimate::NormalisedBy::Peak => "peak |h| (h(0⁺) = 0)",
+        crate::estimate::NormalisedBy::EachMode => "each mode's own h(0⁺)",
     };
     if e.per_mode.is_empty() {
         let _ = writeln!(s, "Predicted error (exact; relative to {norm})");
@@ -238,14 +237,14 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
             "  {:>10}  {:>14}  {:>14}  {:>14}",
             "τ", "raw at 0⁺", "aligned", "window max"
         );
-        for (tau, m) in &e.per_mode {
+        for m in &e.per_mode {
             let _ = writeln!(
                 s,
                 "  {:>10}  {:>14}  {:>14}  {:>14}",
-                eng(*tau, Dim::Time),
-                percent(m.t0.rel),
-                percent(m.t0_aligned.rel),
-                percent_unsigned(m.window.max_rel)
+                eng(m.time_constant, Dim::Time),
+                percent(m.t0_rel),
+                percent(m.t0_aligned_rel),
+                percent_unsigned(m.window_max_rel)
             );
         }
         let _ = writeln!(
@@ -270,7 +269,7 @@ fn bench_text(s: &mut String, b: &BenchPlan, sc: &Scenario) {
         let _ = writeln!(s, "  {label:<18} {line}");
     }
     for n in &b.notes {
-        let _ = writeln!(s, "  note: {n}");
+        let _ = writeln!(s, "  note: {}", words::note_text(n, sc.drive));
     }
     let _ = writeln!(s);
 }
@@ -365,14 +364,14 @@ fn cursors_text(s: &mut String, cs: &[Cursor]) {
     let _ = writeln!(s);
 }
 
-fn warnings_text(s: &mut String, ws: &[Warning]) {
+fn warnings_text(s: &mut String, ws: &[Warning], cx: &Context) {
     if ws.is_empty() {
         let _ = writeln!(s, "No warnings.");
         return;
     }
     let _ = writeln!(s, "Warnings");
     for w in ws {
-        let _ = writeln!(s, "  [{}] {}", w.code, w.message);
+        let _ = writeln!(s, "  [{}] {}", w.code(), words::warning_text(w, cx));
     }
 }
 
@@ -408,29 +407,66 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
         percent_unsigned(out.rule_estimate.window.max_rel)
     );
     let _ = writeln!(s);
-    match &out.target {
+    budget_text(&mut s, sc, out);
+    let _ = writeln!(s);
+    pulse_text(
+        &mut s,
+        "Recommended pulse (at the circuit's input)",
+        &out.pulse,
+        out.prep.run,
+        sc,
+    );
+    let basis = words::run_basis_text(&out.prep.run_basis);
+    let _ = writeln!(s, "  run length basis: {basis}");
+    let _ = writeln!(s);
+    bench_text(&mut s, &out.bench, sc);
+    tolerance_text(&mut s, out);
+    for n in &out.notes {
+        let _ = writeln!(s, "Note: {}", words::note_text(n, sc.drive));
+    }
+    if !out.notes.is_empty() {
+        let _ = writeln!(s);
+    }
+    error_text(&mut s, &out.estimate);
+    let _ = writeln!(s);
+    cursors_text(&mut s, cs);
+    let cx = Context {
+        drive: sc.drive,
+        run_basis: &basis,
+    };
+    warnings_text(&mut s, &out.warnings, &cx);
+    s
+}
+
+fn budget_text(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
+    let widening = out.budget.as_ref().and_then(|b| b.widening).unwrap_or(1.0);
+    match out.budget.as_ref().map(|b| &b.target) {
         Some(Target::Met { width, value }) => {
             let _ = writeln!(
                 s,
                 "Error budget: {} on the {} error → widest width {} (error {}), {:.2}× the rule-of-thumb width",
-                crate::units::percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
+                percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
                 sc.plan.metric.name(),
                 eng(*width, Dim::Time),
                 percent_unsigned(*value),
-                out.widening.unwrap_or(1.0)
+                widening
             );
         }
-        Some(Target::Capped { width, value }) => {
+        Some(Target::Capped {
+            width,
+            value,
+            ratio,
+        }) => {
             let _ = writeln!(
                 s,
                 "Error budget: {} on the {} error would allow a wider pulse; capped at (fastest significant time scale)/{} = {} \
                  (error {}), {:.2}× the rule-of-thumb width",
                 percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
                 sc.plan.metric.name(),
-                sc.plan.min_width_ratio,
+                ratio,
                 eng(*width, Dim::Time),
                 percent_unsigned(*value),
-                out.widening.unwrap_or(1.0)
+                widening
             );
         }
         Some(Target::Unreachable { .. }) => {
@@ -446,29 +482,6 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
             );
         }
     }
-    let _ = writeln!(s);
-    pulse_text(
-        &mut s,
-        "Recommended pulse (at the circuit's input)",
-        &out.pulse,
-        out.prep.run,
-        sc,
-    );
-    let _ = writeln!(s, "  run length basis: {}", out.prep.run_basis);
-    let _ = writeln!(s);
-    bench_text(&mut s, &out.bench, sc);
-    tolerance_text(&mut s, out);
-    for n in &out.notes {
-        let _ = writeln!(s, "Note: {n}");
-    }
-    if !out.notes.is_empty() {
-        let _ = writeln!(s);
-    }
-    error_text(&mut s, &out.estimate);
-    let _ = writeln!(s);
-    cursors_text(&mut s, cs);
-    warnings_text(&mut s, &out.warnings);
-    s
 }
 
 /// Text report for `assess`.
@@ -483,6 +496,11 @@ pub fn assess_text(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> String 
     error_text(&mut s, &out.estimate);
     let _ = writeln!(s);
     cursors_text(&mut s, cs);
-    warnings_text(&mut s, &out.warnings);
+    let basis = words::run_basis_text(&out.prep.run_basis);
+    let cx = Context {
+        drive: sc.drive,
+        run_basis: &basis,
+    };
+    warnings_text(&mut s, &out.warnings, &cx);
     s
 }

@@ -1,8 +1,8 @@
 //! The netlist form of `[network]`: input, output, source resistance and parts.
 
-use super::{DriveKind, Reader, SQty, ScenarioError};
+use super::{Reader, SQty, ScenarioError};
 use crate::netlist::{NetlistSpec, Output, Part, PartKind, Stimulus};
-use crate::units::Dim;
+use crate::units::{Dim, Signal};
 use serde::Deserialize;
 use toml::Spanned;
 
@@ -193,7 +193,7 @@ pub(crate) fn netlist_spec(
     rd: &Reader,
     net_span: &std::ops::Range<usize>,
     c: RawCircuit,
-    drive: DriveKind,
+    drive: Signal,
     generator_resistance: Option<f64>,
 ) -> Result<NetlistSpec, ScenarioError> {
     let input = c.input.ok_or_else(|| {
@@ -262,8 +262,8 @@ pub(crate) fn netlist_spec(
         output: out,
         source_resistance,
         stimulus: match drive {
-            DriveKind::Voltage => Stimulus::Voltage,
-            DriveKind::Current => Stimulus::Current,
+            Signal::Voltage => Stimulus::Voltage,
+            Signal::Current => Stimulus::Current,
         },
         parts,
     })

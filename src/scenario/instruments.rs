@@ -1,8 +1,8 @@
 //! The bench sections: `[generator]`, `[capture]`, `[limits]`.
 
-use super::{DriveKind, Qty, RawScenario, Reader, SQty, ScenarioError};
+use super::{Qty, RawScenario, Reader, SQty, ScenarioError};
 use crate::bench::{Bench, Capture, Generator, Limits, LoadSetting};
-use crate::units::Dim;
+use crate::units::{Dim, Signal};
 use serde::Deserialize;
 use toml::Spanned;
 
@@ -66,11 +66,7 @@ fn load_setting(rd: &Reader, q: &SQty) -> Result<LoadSetting, ScenarioError> {
 }
 
 /// Read the bench sections.
-pub(crate) fn bench(
-    rd: &Reader,
-    raw: &RawScenario,
-    drive: DriveKind,
-) -> Result<Bench, ScenarioError> {
+pub(crate) fn bench(rd: &Reader, raw: &RawScenario, drive: Signal) -> Result<Bench, ScenarioError> {
     let generator = raw
         .generator
         .as_ref()

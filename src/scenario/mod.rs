@@ -5,9 +5,11 @@ mod circuit;
 mod instruments;
 
 use crate::bench::Bench;
+use crate::estimate::Metric;
 use crate::network::{Network, NetworkError, NetworkSpec};
+use crate::plan::PlanSettings;
 use crate::pulse::{Convention, Trapezoid};
-use crate::units::{self, Dim};
+use crate::units::{self, Dim, Signal};
 use num_complex::Complex64;
 use serde::Deserialize;
 use std::ops::Range;
@@ -26,97 +28,6 @@ pub struct ScenarioError {
     pub key: String,
     /// What is wrong and what would be accepted.
     pub message: String,
-}
-
-/// How the stimulus drives the input.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum DriveKind {
-    /// A voltage source: areas in V·s.
-    Voltage,
-    /// A current source: areas in A·s.
-    Current,
-}
-
-impl DriveKind {
-    /// Dimension of the pulse amplitude.
-    pub fn dim(self) -> Dim {
-        match self {
-            DriveKind::Voltage => Dim::Voltage,
-            DriveKind::Current => Dim::Current,
-        }
-    }
-
-    /// Unit of the pulse area.
-    pub fn area_unit(self) -> &'static str {
-        match self {
-            DriveKind::Voltage => "V·s",
-            DriveKind::Current => "A·s",
-        }
-    }
-}
-
-/// Which error figure a budget applies to.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Metric {
-    /// Raw reading at t = 0⁺: y(end)/area vs h(0⁺).
-    T0,
-    /// Centroid-aligned reading: y(end)/area vs h(end − centroid).
-    T0Aligned,
-    /// Largest error over the window after the pulse.
-    Window,
-}
-
-impl Metric {
-    /// Name as written in scenarios and reports.
-    pub fn name(self) -> &'static str {
-        match self {
-            Metric::T0 => "t0",
-            Metric::T0Aligned => "t0-aligned",
-            Metric::Window => "window",
-        }
-    }
-}
-
-/// The `[plan]` settings with defaults applied.
-#[derive(Debug, Clone, PartialEq)]
-pub struct PlanSettings {
-    /// Error budget as a fraction; `None` → rule of thumb.
-    pub target_error: Option<f64>,
-    /// Metric the budget applies to.
-    pub metric: Metric,
-    /// Fastest time scale / width for the rule of thumb.
-    pub width_ratio: f64,
-    /// Width / 10–90 % edge.
-    pub edge_ratio: f64,
-    /// The planned width never exceeds τ_fast / this (and a wider pulse is warned about).
-    pub min_width_ratio: f64,
-    /// A mode whose share of Σ dominance is below this does not set the pulse's time scale.
-    pub significance: f64,
-    /// Monte Carlo samples for tolerances (None: corners when parts are few).
-    pub samples: Option<usize>,
-    /// Seed of the Monte Carlo draw.
-    pub seed: u64,
-    /// Run length in slowest time constants.
-    pub settle_multiple: f64,
-}
-
-impl Default for PlanSettings {
-    fn default() -> Self {
-        // The trade's rule of thumb (common practice, no source): width ≈ τ_fast/100,
-        // edges ≈ width/100, run ≥ 5 τ_slow, and never wider than τ_fast/10.
-        PlanSettings {
-            target_error: None,
-            metric: Metric::T0,
-            width_ratio: 100.0,
-            edge_ratio: 100.0,
-            min_width_ratio: 10.0,
-            // Modes under 1 % of the response's L1 bound are not significant (our choice).
-            significance: 0.01,
-            samples: None,
-            seed: 1,
-            settle_multiple: 5.0,
-        }
-    }
 }
 
 /// The user's own pulse from `[pulse]`.
@@ -144,7 +55,7 @@ pub struct Scenario {
     /// The analysed network.
     pub network: Network,
     /// Drive kind.
-    pub drive: DriveKind,
+    pub drive: Signal,
     /// Pulse area for planning (V·s or A·s).
     pub area: f64,
     /// Plan settings.
@@ -366,7 +277,7 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
 fn network_spec(
     rd: &Reader,
     net: &Spanned<RawNetwork>,
-    drive: DriveKind,
+    drive: Signal,
     generator_resistance: Option<f64>,
 ) -> Result<NetworkSpec, ScenarioError> {
     let n = net.get_ref();
@@ -590,16 +501,16 @@ fn network_error(rd: &Reader, net: &Spanned<RawNetwork>, e: NetworkError) -> Sce
     }
 }
 
-fn drive(rd: &Reader, d: Option<&Spanned<RawDrive>>) -> Result<(DriveKind, f64), ScenarioError> {
+fn drive(rd: &Reader, d: Option<&Spanned<RawDrive>>) -> Result<(Signal, f64), ScenarioError> {
     let Some(d) = d else {
-        return Ok((DriveKind::Voltage, 1.0));
+        return Ok((Signal::Voltage, 1.0));
     };
     let raw = d.get_ref();
     let kind = match &raw.kind {
-        None => DriveKind::Voltage,
+        None => Signal::Voltage,
         Some(k) => match k.get_ref().as_str() {
-            "voltage" => DriveKind::Voltage,
-            "current" => DriveKind::Current,
+            "voltage" => Signal::Voltage,
+            "current" => Signal::Current,
             other => {
                 return Err(rd.err(
                     Some(&k.span()),
@@ -624,10 +535,10 @@ fn drive(rd: &Reader, d: Option<&Spanned<RawDrive>>) -> Result<(DriveKind, f64),
     Ok((kind, area))
 }
 
-fn strip_area_unit(text: &str, kind: DriveKind) -> &str {
+fn strip_area_unit(text: &str, kind: Signal) -> &str {
     let units: &[&str] = match kind {
-        DriveKind::Voltage => &["V·s", "V*s", "Vs", "V s"],
-        DriveKind::Current => &["A·s", "A*s", "As", "A s"],
+        Signal::Voltage => &["V·s", "V*s", "Vs", "V s"],
+        Signal::Current => &["A·s", "A*s", "As", "A s"],
     };
     let t = text.trim();
     units
@@ -715,7 +626,7 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
 fn given_pulse(
     rd: &Reader,
     p: &Spanned<RawPulse>,
-    kind: DriveKind,
+    kind: Signal,
 ) -> Result<GivenPulse, ScenarioError> {
     let raw = p.get_ref();
     let need = |q: &Option<SQty>, key: &str| {

@@ -5,8 +5,10 @@ use super::{
     Area, Axis, BAND, BUDGET, EXTRA, Key, Meta, PLANNED, PREDICTED, RULE, curve, label, legend,
     panel, pe, percent_tick, render, segment, time_tick, titled,
 };
-use crate::plan::{PlanOutcome, tied_pulse};
-use crate::scenario::{Metric, Scenario};
+use crate::estimate::Metric;
+use crate::pipeline::PlanOutcome;
+use crate::plan::tied_pulse;
+use crate::scenario::Scenario;
 use crate::units::{Dim, eng, percent_unsigned};
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};

@@ -5,9 +5,10 @@ use super::{
     ALIGNED, Area, Axis, BUDGET, EXTRA, Key, Meta, PREDICTED, components, curve, decimate, label,
     legend, panel, pe, percent_tick, render, time_tick, titled, y_range,
 };
+use crate::estimate::Metric;
 use crate::plan::Prepared;
 use crate::pulse::Trapezoid;
-use crate::scenario::{Metric, Scenario};
+use crate::scenario::Scenario;
 use crate::units::{Dim, eng, percent_unsigned};
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
@@ -83,7 +84,7 @@ pub fn error_svg(
     let data = errors(sc, prep, pulse, &times);
     let norm_text = match prep.estimator.normalised_by() {
         crate::estimate::NormalisedBy::H0Plus => "|h(0⁺)|",
-        crate::estimate::NormalisedBy::Peak => "peak |h|",
+        crate::estimate::NormalisedBy::Peak | crate::estimate::NormalisedBy::EachMode => "peak |h|",
     };
     let title = "Error after the pulse";
     let sub = if known {

@@ -201,10 +201,10 @@ impl Meta {
             let _ = write!(
                 out,
                 "\n<title>{}</title>\n<metadata id=\"pulseplan-figure\">\n",
-                super::html::escape(&self.title)
+                super::markup::escape(&self.title)
             );
             for l in &self.lines {
-                out.push_str(&super::html::escape(l));
+                out.push_str(&super::markup::escape(l));
                 out.push('\n');
             }
             out.push_str("</metadata>");
@@ -591,7 +591,7 @@ pub struct FigureOptions<'a> {
 /// design-curve sweep, the only part that may take a while.
 pub fn plan_figures(
     sc: &crate::scenario::Scenario,
-    out: &crate::plan::PlanOutcome,
+    out: &crate::pipeline::PlanOutcome,
     opts: &FigureOptions<'_>,
     progress: &mut dyn FnMut(usize, usize),
 ) -> io::Result<Vec<Figure>> {

@@ -5,7 +5,7 @@ use super::{
     segment, time_tick, titled,
 };
 use crate::pulse::Trapezoid;
-use crate::scenario::DriveKind;
+use crate::units::Signal;
 use crate::units::{Dim, eng, eng_sig};
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
@@ -13,7 +13,7 @@ use std::io;
 
 /// The pulse over its own duration, with the generator figures marked, and the rising and
 /// falling edges enlarged below it so the 10–90 % transition durations can be read.
-pub fn stimulus_svg(pulse: &Trapezoid, drive: DriveKind) -> io::Result<String> {
+pub fn stimulus_svg(pulse: &Trapezoid, drive: Signal) -> io::Result<String> {
     let dim = drive.dim();
     let a = pulse.amplitude;
     let end = pulse.end();
@@ -34,7 +34,7 @@ pub fn stimulus_svg(pulse: &Trapezoid, drive: DriveKind) -> io::Result<String> {
     let ytick = move |v: &f64| eng_sig(*v, dim, 3);
     let ydesc = format!(
         "drive {} ({})",
-        if drive == DriveKind::Voltage {
+        if drive == Signal::Voltage {
             "voltage u(t)"
         } else {
             "current i(t)"

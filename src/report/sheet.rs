@@ -1,13 +1,21 @@
 //! The generator settings sheet and the piecewise-linear stimulus export.
 
-use super::BenchPlan;
-use crate::plan::{HAZARD_VOLTS, Warning};
-use crate::scenario::{DriveKind, Scenario};
-use crate::units::{Dim, eng};
+use super::words::{self, Context};
+use crate::bench::{BenchPlan, HAZARD_VOLTS};
+use crate::pipeline::PlanOutcome;
+use crate::scenario::Scenario;
+use crate::units::{Dim, Signal, eng};
 use std::fmt::Write as _;
 
 /// The settings sheet in the bench's terms, with both the generator and the ramp views.
-pub fn generator_sheet(sc: &Scenario, b: &BenchPlan, warnings: &[Warning]) -> String {
+pub fn generator_sheet(sc: &Scenario, out: &PlanOutcome) -> String {
+    let b = &out.bench;
+    let basis = words::run_basis_text(&out.prep.run_basis);
+    let cx = &Context {
+        drive: sc.drive,
+        run_basis: &basis,
+    };
+    let warnings = &out.warnings;
     let p = &b.pulse;
     let dim = sc.drive.dim();
     let gen_ = sc.bench.generator.clone().unwrap_or_default();
@@ -27,7 +35,7 @@ pub fn generator_sheet(sc: &Scenario, b: &BenchPlan, warnings: &[Warning]) -> St
     let _ = writeln!(
         s,
         "  high level               {}   (display value; {} at the circuit input)",
-        eng(b.display_amplitude, dim),
+        eng(b.amplitude.display_amplitude, dim),
         eng(p.amplitude, dim)
     );
     let _ = writeln!(s, "  low level                0");
@@ -130,14 +138,14 @@ pub fn generator_sheet(sc: &Scenario, b: &BenchPlan, warnings: &[Warning]) -> St
     let _ = writeln!(
         s,
         "READING: h(t) ≈ y(t) / area, area = {} (multiply the captured output by {})",
-        crate::report::with_unit(b.scaling.area, sc.drive.area_unit()),
-        crate::units::eng_number(b.scaling.read_factor(), 5).trim_end()
+        words::with_unit(b.amplitude.scaling.area, sc.drive.area_unit()),
+        crate::units::eng_number(b.amplitude.scaling.read_factor, 5).trim_end()
     );
     for n in &b.notes {
-        let _ = writeln!(s, "NOTE: {n}");
+        let _ = writeln!(s, "NOTE: {}", words::note_text(n, sc.drive));
     }
-    let hazardous = sc.drive == DriveKind::Voltage
-        && (p.amplitude.abs() > HAZARD_VOLTS || b.display_amplitude.abs() > HAZARD_VOLTS);
+    let hazardous = sc.drive == Signal::Voltage
+        && (p.amplitude.abs() > HAZARD_VOLTS || b.amplitude.display_amplitude.abs() > HAZARD_VOLTS);
     let _ = writeln!(s);
     if hazardous {
         let _ = writeln!(
@@ -151,7 +159,7 @@ pub fn generator_sheet(sc: &Scenario, b: &BenchPlan, warnings: &[Warning]) -> St
         "CAUTION: check that the circuit under test tolerates this pulse (ratings, linear range) before applying it."
     );
     for w in warnings {
-        let _ = writeln!(s, "WARNING [{}]: {}", w.code, w.message);
+        let _ = writeln!(s, "WARNING [{}]: {}", w.code(), words::warning_text(w, cx));
     }
     s
 }

@@ -1,0 +1,194 @@
+//! Amplitude and range: the generator's and the circuit's input limits, the circuit's linear
+//! output range, the generator display's load setting, and the voltage caution.
+
+use super::{BenchInput, HAZARD_VOLTS};
+use crate::notice::{AmplitudeLimit, LimitHit, Note, Warning};
+use crate::plan::Prepared;
+use crate::pulse::Trapezoid;
+use crate::units::Signal;
+use serde::Serialize;
+
+/// Why the area was scaled.
+pub type ScaleReason = LimitHit;
+
+/// How the pulse's area was scaled to respect the limits.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Scaling {
+    /// Area the plan asked for.
+    pub requested_area: f64,
+    /// Area delivered.
+    pub area: f64,
+    /// h(t) ≈ y(t) × this (1/area).
+    pub read_factor: f64,
+    /// The limits that changed it (empty when it did not).
+    #[serde(rename = "limits")]
+    pub reasons: Vec<ScaleReason>,
+}
+
+/// The amplitude step's figures.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AmplitudeFit {
+    /// Amplitude to set on the generator's display (its load setting taken into account).
+    pub display_amplitude: f64,
+    /// Amplitude at the circuit / display amplitude.
+    pub open_over_display: f64,
+    /// Area scaling.
+    pub scaling: Scaling,
+    /// Predicted peak at the circuit's input (the pulse amplitude).
+    pub peak_input: f64,
+    /// Predicted peak |y| at the output over the run (direct-term copy included).
+    pub peak_output: f64,
+}
+
+/// The amplitude step's result: the pulse, its figures, and what it raised.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AmplitudeStep {
+    /// The pulse with its amplitude fitted.
+    pub pulse: Trapezoid,
+    /// Figures.
+    pub fit: AmplitudeFit,
+    /// Warnings.
+    pub warnings: Vec<Warning>,
+    /// Notes.
+    pub notes: Vec<Note>,
+}
+
+/// Peak |y(t)| over [0, run] for a pulse (direct term included while the input is non-zero).
+pub fn peak_output(prep: &Prepared, pulse: &Trapezoid, run: f64) -> f64 {
+    let d = prep.estimator.modal().drive(&pulse.breakpoints());
+    let end = pulse.end();
+    let inside = (0..=200).map(|k| d.at(end * k as f64 / 200.0).abs());
+    let span = (run - end).max(end);
+    let n = 4000;
+    let after = d.after_end();
+    let uniform = after.uniform(end, span / (n - 1) as f64, n);
+    let start = (prep.tau_fast * 1e-3).min(span / 10.0);
+    let ratio = (span / start).powf(1.0 / 400.0);
+    let geometric = (0..=400).map(|k| after.at(end + start * ratio.powi(k)).abs());
+    inside
+        .chain(uniform.iter().map(|v| v.abs()))
+        .chain(geometric)
+        .fold(0.0, f64::max)
+}
+
+/// The amplitude limit that applies: the smaller of the generator's and the circuit input's.
+fn input_limit(inp: &BenchInput) -> Option<(AmplitudeLimit, f64)> {
+    let g = inp.bench.generator.as_ref().and_then(|g| g.max_amplitude);
+    let c = inp.bench.limits.as_ref().and_then(|l| l.max_input);
+    match (g, c) {
+        (Some(g), Some(c)) if c <= g => Some((AmplitudeLimit::CircuitInput, c)),
+        (Some(g), _) => Some((AmplitudeLimit::Generator, g)),
+        (None, Some(c)) => Some((AmplitudeLimit::CircuitInput, c)),
+        (None, None) => None,
+    }
+}
+
+/// Fit the amplitude to the limits (`adapt`), or only check it (`adapt` false).
+pub fn fit(
+    inp: &BenchInput,
+    prep: &Prepared,
+    timed: &Trapezoid,
+    requested_area: f64,
+    adapt: bool,
+) -> AmplitudeStep {
+    let mut pulse = *timed;
+    let mut reasons = Vec::new();
+    let mut warnings = Vec::new();
+    let limit = input_limit(inp);
+    if let Some((which, lim)) = limit
+        && pulse.amplitude.abs() > lim
+    {
+        if adapt {
+            reasons.push(LimitHit {
+                which,
+                value: pulse.amplitude,
+                limit: lim,
+            });
+            pulse.amplitude = lim.copysign(pulse.amplitude);
+        } else if pulse.amplitude.abs() > lim * (1.0 + 1e-12) {
+            warnings.push(Warning::AmplitudeExceedsLimit {
+                amplitude: pulse.amplitude,
+                limit: lim,
+                which,
+            });
+        }
+    }
+    let mut peak_out = peak_output(prep, &pulse, prep.run);
+    let max_out = inp.bench.limits.as_ref().and_then(|l| l.max_output);
+    if let Some(max_out) = max_out.filter(|&m| peak_out > m) {
+        if adapt {
+            reasons.push(LimitHit {
+                which: AmplitudeLimit::CircuitOutput,
+                value: peak_out,
+                limit: max_out,
+            });
+            let k = max_out / peak_out;
+            pulse.amplitude *= k;
+            peak_out *= k;
+        } else {
+            warnings.push(Warning::OutputBeyondRange {
+                peak: peak_out,
+                max_output: max_out,
+            });
+        }
+    }
+    if !adapt {
+        let min_width = inp.bench.generator.as_ref().and_then(|g| g.min_width);
+        if let Some(w) = min_width.filter(|&w| pulse.width_50() < w) {
+            warnings.push(Warning::WidthBelowGenerator {
+                width: pulse.width_50(),
+                min_width: w,
+            });
+        }
+    }
+    let scaling = Scaling {
+        requested_area,
+        area: pulse.area(),
+        read_factor: 1.0 / pulse.area(),
+        reasons,
+    };
+    let mut notes = Vec::new();
+    if !scaling.reasons.is_empty() {
+        notes.push(Note::AreaPlannedDown {
+            requested: requested_area,
+            area: scaling.area,
+            read_factor: scaling.read_factor,
+            limits: scaling.reasons.clone(),
+        });
+    }
+    warnings.extend(hazard(inp.drive, &pulse));
+    let open_over_display = match inp.drive {
+        Signal::Voltage => inp
+            .bench
+            .generator
+            .as_ref()
+            .map_or(1.0, |g| g.open_over_display()),
+        Signal::Current => 1.0,
+    };
+    let fit = AmplitudeFit {
+        display_amplitude: pulse.amplitude / open_over_display,
+        open_over_display,
+        scaling,
+        peak_input: pulse.amplitude.abs(),
+        peak_output: peak_out,
+    };
+    AmplitudeStep {
+        pulse,
+        fit,
+        warnings,
+        notes,
+    }
+}
+
+/// The caution for a voltage pulse above the extra-low-voltage level.
+pub fn hazard(drive: Signal, pulse: &Trapezoid) -> Option<Warning> {
+    (drive == Signal::Voltage && pulse.amplitude.abs() > HAZARD_VOLTS).then(|| {
+        Warning::HazardVoltage {
+            area: pulse.area(),
+            width: pulse.width_50(),
+            amplitude: pulse.amplitude,
+            limit: HAZARD_VOLTS,
+            safe_area: pulse.area() * HAZARD_VOLTS / pulse.amplitude.abs(),
+        }
+    })
+}
