@@ -439,7 +439,7 @@ pub fn run(cli: Cli) -> Result<Outcome> {
                     );
                 }
             }
-            let cs = report::cursors(&sc.network, &out.pulse, &times);
+            let cs = out.prep.estimator.cursors(&out.pulse, &times);
             let text = if common.json {
                 serde_json::to_string_pretty(&report::plan_json(&sc, &out, &cs))? + "\n"
             } else {
@@ -458,7 +458,7 @@ pub fn run(cli: Cli) -> Result<Outcome> {
                 )));
             };
             let out = crate::pipeline::assess(&sc, &given.pulse, given.run);
-            let cs = report::cursors(&sc.network, &out.pulse, &times);
+            let cs = out.prep.estimator.cursors(&out.pulse, &times);
             let text = if common.json {
                 serde_json::to_string_pretty(&report::assess_json(&sc, &out, &cs))? + "\n"
             } else {

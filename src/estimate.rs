@@ -340,6 +340,35 @@ pub struct Cursor {
     pub difference_aligned: f64,
 }
 
+/// Cursor readings for a network without an estimator (the response table).
+pub fn cursors(net: &Network, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
+    let modal = Modal::new(net);
+    let h = modal.impulse();
+    read_cursors(&modal, &h, pulse, times)
+}
+
+fn read_cursors(modal: &Modal, h: &FreeResponse, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
+    let driven = modal.drive(&pulse.breakpoints());
+    let c = pulse.centroid();
+    let area = pulse.area();
+    times
+        .iter()
+        .map(|&t| {
+            let ideal = if t > 0.0 { h.at(t) } else { 0.0 };
+            let ideal_aligned = if t > c { h.at(t - c) } else { 0.0 };
+            let predicted = driven.at(t) / area;
+            Cursor {
+                t,
+                ideal,
+                ideal_aligned,
+                predicted,
+                difference: predicted - ideal,
+                difference_aligned: predicted - ideal_aligned,
+            }
+        })
+        .collect()
+}
+
 /// The network's exact machinery, prepared once and reused for many pulses.
 #[derive(Debug, Clone)]
 pub struct Estimator {
@@ -465,25 +494,7 @@ impl Estimator {
 
     /// Cursor readings of the ideal and predicted responses at the given instants.
     pub fn cursors(&self, pulse: &Trapezoid, times: &[f64]) -> Vec<Cursor> {
-        let driven = self.modal.drive(&pulse.breakpoints());
-        let c = pulse.centroid();
-        let area = pulse.area();
-        times
-            .iter()
-            .map(|&t| {
-                let ideal = if t > 0.0 { self.h.at(t) } else { 0.0 };
-                let ideal_aligned = if t > c { self.h.at(t - c) } else { 0.0 };
-                let predicted = driven.at(t) / area;
-                Cursor {
-                    t,
-                    ideal,
-                    ideal_aligned,
-                    predicted,
-                    difference: predicted - ideal,
-                    difference_aligned: predicted - ideal_aligned,
-                }
-            })
-            .collect()
+        read_cursors(&self.modal, &self.h, pulse, times)
     }
 
     /// Window errors over [end, run].

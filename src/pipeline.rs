@@ -77,7 +77,7 @@ pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync
     let inp = bench_input(sc);
     let mut notes = choice.notes.clone();
     let mut fitted = bench::fit(&inp, &choice.prep, &choice.pulse, true);
-    if let Some(w) = bench::noise::better_width(&inp, &choice.prep, &choice.pulse, &fitted) {
+    if let Some(w) = bench::better_width(&inp, &choice.prep, &choice.pulse, &fitted) {
         let p = plan::tied_pulse(sc.area, w, sc.plan.edge_ratio);
         fitted = bench::fit(&inp, &choice.prep, &p, true);
         notes.push(Note::FewestAverages {

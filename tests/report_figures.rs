@@ -324,7 +324,7 @@ fn design_marker_sits_at_the_planned_width_and_value() {
         let p = panel(&svg, "design");
         assert_eq!(p.xs, "log10");
         assert_eq!(p.ys, "log10");
-        let marks = circles(&svg, &figures::hex(figures::PLANNED), &p);
+        let marks = circles(&svg, &figures::hex(figures::canvas::PLANNED), &p);
         assert_eq!(marks.len(), 1, "{name}: one planned marker in the panel");
         let (w, v) = p.to_data(marks[0].0, marks[0].1);
         // The planner's own numbers: the planned width and its metric (exact estimator).
@@ -343,13 +343,13 @@ fn design_marker_sits_at_the_planned_width_and_value() {
         );
         // The budget line lies at the budget.
         let budget = sc.plan.target_error.unwrap();
-        let lines = polylines(&svg, &figures::hex(figures::BUDGET), &p);
+        let lines = polylines(&svg, &figures::hex(figures::canvas::BUDGET), &p);
         assert_eq!(lines.len(), 1);
         let want_y = p.to_px(p.x.0, budget).1;
         assert!(lines[0].iter().all(|q| (q.1 - want_y).abs() <= 1.0));
         // The curve's vertices are the estimator's metric at their widths (3 px: x rounding
         // times the local log–log slope, plus y rounding).
-        let curve = polylines(&svg, &figures::hex(figures::PREDICTED), &p);
+        let curve = polylines(&svg, &figures::hex(figures::canvas::PREDICTED), &p);
         assert!(!curve.is_empty());
         let mut checked = 0;
         for q in curve.iter().flatten().step_by(7) {
@@ -374,7 +374,7 @@ fn design_marker_sits_at_the_planned_width_and_value() {
         }
         assert!(checked >= 5);
         // The rule-of-thumb line sits at the fastest significant time scale / width_ratio.
-        let rule = polylines(&svg, &figures::hex(figures::RULE), &p);
+        let rule = polylines(&svg, &figures::hex(figures::canvas::RULE), &p);
         let want_x = p.to_px(out.prep.tau_plan / sc.plan.width_ratio, p.y.0).0;
         assert!(
             rule.iter()
@@ -399,7 +399,7 @@ fn extra_design_curves_are_drawn_when_given() {
     let svg = figures::design_svg(&dc, &extra).unwrap();
     assert!(svg.contains("noise share"));
     let p = panel(&svg, "design");
-    assert!(!polylines(&svg, &figures::hex(figures::EXTRA[0]), &p).is_empty());
+    assert!(!polylines(&svg, &figures::hex(figures::canvas::EXTRA[0]), &p).is_empty());
 }
 
 #[test]
@@ -442,7 +442,7 @@ fn error_window_maximum_marker_matches_the_estimate() {
     let svg = figures::error_svg(&sc, &out.prep, &out.pulse, out.prep.run).unwrap();
     let p = panel(&svg, "aligned");
     assert_eq!(p.xs, "log10");
-    let marks = circles(&svg, &figures::hex(figures::ALIGNED), &p);
+    let marks = circles(&svg, &figures::hex(figures::canvas::ALIGNED), &p);
     assert_eq!(marks.len(), 1);
     let (t, e) = p.to_data(marks[0].0, marks[0].1);
     let w = out.estimate.window;

@@ -1,7 +1,7 @@
 //! Amplitude and range: the generator's and the circuit's input limits, the circuit's linear
 //! output range, the generator display's load setting, and the voltage caution.
 
-use super::{BenchInput, HAZARD_VOLTS};
+use super::settings::{BenchInput, HAZARD_VOLTS};
 use crate::notice::{AmplitudeLimit, LimitHit, Note, Warning};
 use crate::plan::Prepared;
 use crate::pulse::Trapezoid;

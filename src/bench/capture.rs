@@ -1,6 +1,6 @@
 //! The capture plan: sample interval, record length with pre-trigger, memory, averaging.
 
-use super::Capture;
+use super::settings::Capture;
 use crate::notice::Warning;
 use crate::pulse::Trapezoid;
 use serde::Serialize;

@@ -1,7 +1,7 @@
 //! Signal-to-noise: at a fixed amplitude, a wider pulse carries more area (less noise in the
 //! reading y/area) but more bias. The total error against width, and the averages needed.
 
-use super::BenchInput;
+use super::settings::BenchInput;
 use crate::estimate::{ErrorEstimate, Estimator};
 use crate::notice::{Note, Warning};
 use crate::plan::{PlanSettings, Prepared, tied_pulse};
@@ -230,31 +230,4 @@ pub fn assess(
         warnings,
         notes,
     }
-}
-
-/// With output noise, the width that needs the fewest averages to meet the budget, when it
-/// differs from the planned width by more than 1 % (the widest pulse within the bias budget
-/// would leave no room for noise). `delivered` is the bench's fit of the planned pulse.
-pub fn better_width(
-    inp: &BenchInput,
-    prep: &Prepared,
-    planned: &Trapezoid,
-    delivered: &super::BenchPlan,
-) -> Option<f64> {
-    let sigma = inp.bench.capture.as_ref().and_then(|c| c.noise)?;
-    delivered.noise.noise.as_ref()?;
-    let limited = (!delivered.amplitude.scaling.reasons.is_empty())
-        .then_some(delivered.pulse.amplitude.abs());
-    let w_hi = planned.width_50();
-    let (w, _) = fewest_averages(
-        &prep.estimator,
-        inp.plan,
-        limited,
-        planned.area(),
-        sigma,
-        prep.run,
-        w_hi,
-        delivered.budget,
-    )?;
-    ((w / w_hi - 1.0).abs() > 0.01).then_some(w)
 }

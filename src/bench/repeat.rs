@@ -1,7 +1,7 @@
 //! Repetition: the error that the earlier pulses of a train add, and the period that keeps it
 //! below a tenth of the budget.
 
-use super::Generator;
+use super::settings::Generator;
 use crate::estimate::{Estimator, Metric};
 use crate::notice::Warning;
 use crate::pulse::Trapezoid;

@@ -1,7 +1,7 @@
 //! Timing: width and edges within the generator's range, rounded to its resolution, and what
 //! that does to the error.
 
-use super::Generator;
+use super::settings::Generator;
 use crate::estimate::{ErrorEstimate, Estimator};
 use crate::notice::{Note, Warning};
 use crate::plan::PlanSettings;

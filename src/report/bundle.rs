@@ -75,32 +75,36 @@ pub fn write_bundle_with(
     let mut written = Vec::new();
     for f in &figures {
         let path = dir.join(&f.file);
-        super::write_atomic(&path, f.svg.as_bytes())?;
+        super::csv_out::write_atomic(&path, f.svg.as_bytes())?;
         written.push(path);
     }
     let html = super::html::plan_html(sc, out, &figures);
     let path = dir.join("report.html");
-    super::write_atomic(&path, html.as_bytes())?;
+    super::csv_out::write_atomic(&path, html.as_bytes())?;
     written.push(path);
-    let rows = super::response_rows(&sc.network, &out.pulse, out.prep.run, RESPONSE_POINTS);
+    let rows =
+        super::csv_out::response_rows(&sc.network, &out.pulse, out.prep.run, RESPONSE_POINTS);
     let path = dir.join("response.csv");
-    super::write_response_csv(&path, &rows)?;
+    super::csv_out::write_response_csv(&path, &rows)?;
     written.push(path);
-    let json = serde_json::to_string_pretty(&super::plan_json(sc, out, &[]))
+    let json = serde_json::to_string_pretty(&super::json::plan_json(sc, out, &[]))
         .map_err(std::io::Error::other)?;
     let path = dir.join("plan.json");
-    super::write_atomic(&path, (json + "\n").as_bytes())?;
+    super::csv_out::write_atomic(&path, (json + "\n").as_bytes())?;
     written.push(path);
-    let sheet = super::generator_sheet(sc, out);
+    let sheet = super::sheet::generator_sheet(sc, out);
     let path = dir.join("generator.txt");
-    super::write_atomic(&path, sheet.as_bytes())?;
+    super::csv_out::write_atomic(&path, sheet.as_bytes())?;
     written.push(path);
     let unit = match sc.drive {
         crate::units::Signal::Voltage => "V",
         crate::units::Signal::Current => "A",
     };
     let path = dir.join("stimulus.csv");
-    super::write_atomic(&path, super::stimulus_csv(&out.bench, unit).as_bytes())?;
+    super::csv_out::write_atomic(
+        &path,
+        super::sheet::stimulus_csv(&out.bench, unit).as_bytes(),
+    )?;
     written.push(path);
     Ok(written)
 }

@@ -1,6 +1,6 @@
 //! The response table as CSV, and atomic file writes.
 
-use super::cursors;
+use crate::estimate::cursors;
 use crate::network::Network;
 use crate::pulse::Trapezoid;
 use std::io::Write as _;

@@ -201,7 +201,7 @@ fn modes_table(s: &mut String, net: &Network, significant: &[bool]) {
             skipped += 1;
             continue;
         }
-        let [res, tau, zeta] = super::mode_cells(net, m, complex_text);
+        let [res, tau, zeta] = super::tables::mode_cells(net, m, complex_text);
         let _ = writeln!(
             s,
             "<tr><td class=\"num\">{}</td><td class=\"num\">{}</td><td>{}</td><td class=\"num\">{}</td>\
@@ -229,7 +229,7 @@ fn modes_table(s: &mut String, net: &Network, significant: &[bool]) {
 fn bench_html(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
     let b = &out.bench;
     let _ = writeln!(s, "<section><h2>On the bench</h2><table><tbody>");
-    for (label, line) in super::bench_lines(sc, b) {
+    for (label, line) in super::tables::bench_lines(sc, b) {
         text_row(s, label, &[line]);
     }
     let _ = writeln!(s, "</tbody></table>");
@@ -351,7 +351,7 @@ fn pulses_table(s: &mut String, cols: &[(&str, &Trapezoid)], run: f64, drive: Si
     row(
         s,
         "area",
-        &each(&|p| super::with_unit(p.area(), drive.area_unit())),
+        &each(&|p| words::with_unit(p.area(), drive.area_unit())),
     );
     group(s, "generator view (IEEE Std 181 terms)", n);
     row(s, "width at 50 %", &each(&|p| t(p.width_50())));
@@ -619,7 +619,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         } else {
             "current"
         },
-        escape(&super::with_unit(sc.area, sc.drive.area_unit())),
+        escape(&words::with_unit(sc.area, sc.drive.area_unit())),
         escape(&budget_text(sc, out))
     );
     let _ = writeln!(s, "</section>");

@@ -1,8 +1,8 @@
 //! The human-readable text report.
 
-use super::Cursor;
 use super::words::{self, Context, with_unit};
 use crate::bench::BenchPlan;
+use crate::estimate::Cursor;
 use crate::estimate::ErrorEstimate;
 use crate::network::Network;
 use crate::notice::Warning;
@@ -50,7 +50,7 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
             hidden_share = hidden_share.max(prep.shares[i]);
             continue;
         }
-        let [res, tau, zeta] = super::mode_cells(net, m, pole_text);
+        let [res, tau, zeta] = super::tables::mode_cells(net, m, pole_text);
         let share = if net.residues_known {
             format!(
                 "{}{}",
@@ -265,7 +265,7 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
 
 fn bench_text(s: &mut String, b: &BenchPlan, sc: &Scenario) {
     let _ = writeln!(s, "On the bench");
-    for (label, line) in super::bench_lines(sc, b) {
+    for (label, line) in super::tables::bench_lines(sc, b) {
         let _ = writeln!(s, "  {label:<18} {line}");
     }
     for n in &b.notes {

@@ -1,6 +1,6 @@
 //! The netlist form of `[network]`: input, output, source resistance and parts.
 
-use super::{Reader, SQty, ScenarioError};
+use super::reader::{Reader, SQty, ScenarioError};
 use crate::netlist::{NetlistSpec, Output, Part, PartKind, Stimulus};
 use crate::units::{Dim, Signal};
 use serde::Deserialize;

@@ -1,6 +1,6 @@
 //! The bench sections: `[generator]`, `[capture]`, `[limits]`.
 
-use super::{Qty, RawScenario, Reader, SQty, ScenarioError};
+use super::reader::{Qty, Reader, SQty, ScenarioError};
 use crate::bench::{Bench, Capture, Generator, Limits, LoadSetting};
 use crate::units::{Dim, Signal};
 use serde::Deserialize;
@@ -66,9 +66,14 @@ fn load_setting(rd: &Reader, q: &SQty) -> Result<LoadSetting, ScenarioError> {
 }
 
 /// Read the bench sections.
-pub(crate) fn bench(rd: &Reader, raw: &RawScenario, drive: Signal) -> Result<Bench, ScenarioError> {
-    let generator = raw
-        .generator
+pub(crate) fn bench(
+    rd: &Reader,
+    generator: &Option<Spanned<RawGenerator>>,
+    capture: &Option<Spanned<RawCapture>>,
+    limits: &Option<Spanned<RawLimits>>,
+    drive: Signal,
+) -> Result<Bench, ScenarioError> {
+    let generator = generator
         .as_ref()
         .map(
             |g: &Spanned<RawGenerator>| -> Result<Generator, ScenarioError> {
@@ -119,8 +124,7 @@ pub(crate) fn bench(rd: &Reader, raw: &RawScenario, drive: Signal) -> Result<Ben
             },
         )
         .transpose()?;
-    let capture = raw
-        .capture
+    let capture = capture
         .as_ref()
         .map(|c| -> Result<Capture, ScenarioError> {
             let c = c.get_ref();
@@ -152,8 +156,7 @@ pub(crate) fn bench(rd: &Reader, raw: &RawScenario, drive: Signal) -> Result<Ben
             Ok(cap)
         })
         .transpose()?;
-    let limits = raw
-        .limits
+    let limits = limits
         .as_ref()
         .map(|l| -> Result<Limits, ScenarioError> {
             let l = l.get_ref();

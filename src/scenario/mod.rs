@@ -3,6 +3,10 @@
 
 mod circuit;
 mod instruments;
+mod reader;
+
+pub use reader::ScenarioError;
+use reader::{Qty, Reader, SList, SQty};
 
 use crate::bench::Bench;
 use crate::estimate::Metric;
@@ -10,25 +14,10 @@ use crate::network::{Network, NetworkError, NetworkSpec};
 use crate::plan::PlanSettings;
 use crate::pulse::{Convention, Trapezoid};
 use crate::units::{self, Dim, Signal};
-use num_complex::Complex64;
 use serde::Deserialize;
 use std::ops::Range;
 use std::path::Path;
 use toml::Spanned;
-
-/// A bad scenario: where, which key, what is wrong.
-#[derive(Debug, thiserror::Error, Clone, PartialEq)]
-#[error("{file}:{line}: {key}: {message}")]
-pub struct ScenarioError {
-    /// File name as given.
-    pub file: String,
-    /// 1-based line (1 when the problem concerns the whole file).
-    pub line: usize,
-    /// Dotted key, e.g. `network.poles[1]`.
-    pub key: String,
-    /// What is wrong and what would be accepted.
-    pub message: String,
-}
 
 /// The user's own pulse from `[pulse]`.
 #[derive(Debug, Clone, PartialEq)]
@@ -65,18 +54,6 @@ pub struct Scenario {
     /// The bench: generator, capture and circuit limits (all optional).
     pub bench: Bench,
 }
-
-/// A quantity as written: a TOML number or a string with engineering notation.
-#[derive(Debug, Clone, Deserialize)]
-#[serde(untagged)]
-pub(crate) enum Qty {
-    Int(i64),
-    Float(f64),
-    Text(String),
-}
-
-pub(crate) type SQty = Spanned<Qty>;
-type SList = Spanned<Vec<SQty>>;
 
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -138,86 +115,6 @@ struct RawPulse {
     run: Option<SQty>,
 }
 
-/// Reads one file's values, turning spans into line numbers for messages.
-pub(crate) struct Reader<'a> {
-    file: &'a str,
-    text: &'a str,
-}
-
-impl Reader<'_> {
-    pub(crate) fn line_of(&self, span: &Range<usize>) -> usize {
-        let end = span.start.min(self.text.len());
-        self.text[..end].bytes().filter(|&b| b == b'\n').count() + 1
-    }
-
-    pub(crate) fn err(
-        &self,
-        span: Option<&Range<usize>>,
-        key: &str,
-        message: impl Into<String>,
-    ) -> ScenarioError {
-        ScenarioError {
-            file: self.file.to_string(),
-            line: span.map_or(1, |s| self.line_of(s)),
-            key: key.to_string(),
-            message: message.into(),
-        }
-    }
-
-    pub(crate) fn number(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
-        let v = match q.get_ref() {
-            Qty::Int(i) => *i as f64,
-            Qty::Float(f) => *f,
-            Qty::Text(t) => units::parse_quantity(t, dim)
-                .map_err(|e| self.err(Some(&q.span()), key, e.to_string()))?,
-        };
-        if !v.is_finite() {
-            return Err(self.err(Some(&q.span()), key, format!("{v} is not a finite number")));
-        }
-        Ok(v)
-    }
-
-    pub(crate) fn positive(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
-        let v = self.number(q, key, dim)?;
-        if v <= 0.0 {
-            return Err(self.err(Some(&q.span()), key, format!("must be positive, got {v}")));
-        }
-        Ok(v)
-    }
-
-    pub(crate) fn list(&self, l: &SList, key: &str, dim: Dim) -> Result<Vec<f64>, ScenarioError> {
-        l.get_ref()
-            .iter()
-            .enumerate()
-            .map(|(i, q)| self.number(q, &format!("{key}[{i}]"), dim))
-            .collect()
-    }
-
-    pub(crate) fn complex_list(
-        &self,
-        l: &SList,
-        key: &str,
-    ) -> Result<Vec<Complex64>, ScenarioError> {
-        l.get_ref()
-            .iter()
-            .enumerate()
-            .map(|(i, q)| {
-                let k = format!("{key}[{i}]");
-                let z = match q.get_ref() {
-                    Qty::Int(v) => Complex64::new(*v as f64, 0.0),
-                    Qty::Float(v) => Complex64::new(*v, 0.0),
-                    Qty::Text(t) => units::parse_complex(t)
-                        .map_err(|e| self.err(Some(&q.span()), &k, e.to_string()))?,
-                };
-                if !(z.re.is_finite() && z.im.is_finite()) {
-                    return Err(self.err(Some(&q.span()), &k, "is not a finite number"));
-                }
-                Ok(z)
-            })
-            .collect()
-    }
-}
-
 /// Read and validate a scenario file.
 pub fn load(path: &Path) -> Result<Scenario, ScenarioError> {
     let file = path.display().to_string();
@@ -236,7 +133,7 @@ pub fn load(path: &Path) -> Result<Scenario, ScenarioError> {
 
 /// Parse and validate scenario text (`file` is used in messages only).
 pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioError> {
-    let rd = Reader { file, text };
+    let rd = Reader::new(file, text);
     let raw: RawScenario = toml::from_str(text).map_err(|e| {
         let span = e.span();
         let mut msg = e.message().trim().to_string();
@@ -250,7 +147,7 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
         .as_ref()
         .ok_or_else(|| rd.err(None, "network", "the [network] section is missing: give time_constants, numerator/denominator, or poles/zeros/gain"))?;
     let (drive, area) = drive(&rd, raw.drive.as_ref())?;
-    let bench = instruments::bench(&rd, &raw, drive)?;
+    let bench = instruments::bench(&rd, &raw.generator, &raw.capture, &raw.limits, drive)?;
     let generator_resistance = bench.generator.as_ref().and_then(|g| g.output_resistance);
     let network_spec = network_spec(&rd, net_raw, drive, generator_resistance)?;
     let network = Network::from_spec(&network_spec).map_err(|e| network_error(&rd, net_raw, e))?;

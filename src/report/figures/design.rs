@@ -1,9 +1,10 @@
 //! The design curve: the budgeted error metric against the pulse's 50 % width, on log–log
 //! axes, with the budget, the rule-of-thumb width, the planned width and the width cap.
 
-use super::{
-    Area, Axis, BAND, BUDGET, EXTRA, Key, Meta, PLANNED, PREDICTED, RULE, curve, label, legend,
-    panel, pe, percent_tick, render, segment, time_tick, titled,
+use super::axis::Axis;
+use super::canvas::{
+    Area, BAND, BUDGET, EXTRA, Key, Meta, PLANNED, PREDICTED, RULE, curve, label, legend, panel,
+    pe, percent_tick, render, segment, time_tick, titled,
 };
 use crate::estimate::Metric;
 use crate::pipeline::PlanOutcome;

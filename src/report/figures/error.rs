@@ -1,9 +1,10 @@
 //! The error after the pulse, raw and centroid-aligned, relative to the normaliser, on a
 //! logarithmic time axis from the pulse's end to the end of the run.
 
-use super::{
-    ALIGNED, Area, Axis, BUDGET, EXTRA, Key, Meta, PREDICTED, components, curve, decimate, label,
-    legend, panel, pe, percent_tick, render, time_tick, titled, y_range,
+use super::axis::Axis;
+use super::canvas::{
+    ALIGNED, Area, BUDGET, EXTRA, Key, Meta, PREDICTED, components, curve, decimate, label, legend,
+    panel, pe, percent_tick, render, time_tick, titled, y_range,
 };
 use crate::estimate::Metric;
 use crate::plan::Prepared;
@@ -171,7 +172,7 @@ pub fn error_svg(
             if let (Some(b), true) = (budget, on_this) {
                 for s in [b, -b] {
                     if y.contains(s) {
-                        super::segment(&mut ch, (x.lo, s), (x.hi, s), BUDGET, 2)?;
+                        super::canvas::segment(&mut ch, (x.lo, s), (x.hi, s), BUDGET, 2)?;
                     }
                 }
                 if !y.contains(b) && !y.contains(-b) {

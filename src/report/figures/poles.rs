@@ -1,8 +1,9 @@
 //! The pole map: poles (×) and zeros (○) in the s-plane, each mode annotated with its time
 //! scales. Poles spread over decades are drawn on symmetric-logarithmic axes.
 
-use super::{
-    Area, Axis, INK, Key, Meta, RULE, Swatch, label, legend, panel, pe, render, titled, unit_tick,
+use super::axis::Axis;
+use super::canvas::{
+    Area, INK, Key, Meta, RULE, Swatch, label, legend, panel, pe, render, titled, unit_tick,
 };
 use crate::network::Network;
 use crate::units::{Dim, eng};
@@ -61,7 +62,7 @@ pub fn poles_svg(net: &Network, significant: Option<&[bool]>) -> io::Result<Stri
     let mut pts: Vec<(f64, f64)> = net.modes.iter().map(|m| (m.pole.re, m.pole.im)).collect();
     pts.extend(net.zeros.iter().map(|z| (z.re, z.im)));
     let (x, y) = axes(&pts);
-    let symlog = !matches!(x.scale, super::Scale::Linear);
+    let symlog = !matches!(x.scale, super::axis::Scale::Linear);
     let title = "Pole map (s-plane)";
     // Label significant modes where there is room: slowest and fastest first, then the rest,
     // skipping any label that would overlap one already placed (about 150 × 20 px).
@@ -135,9 +136,9 @@ pub fn poles_svg(net: &Network, significant: Option<&[bool]>) -> io::Result<Stri
         )?;
         meta.panel("poles", &ch, &x, &y);
         if x.contains(0.0) {
-            super::segment(&mut ch, (0.0, y.lo), (0.0, y.hi), RULE, 2)?;
+            super::canvas::segment(&mut ch, (0.0, y.lo), (0.0, y.hi), RULE, 2)?;
         }
-        super::segment(&mut ch, (x.lo, 0.0), (x.hi, 0.0), MINOR, 1)?;
+        super::canvas::segment(&mut ch, (x.lo, 0.0), (x.hi, 0.0), MINOR, 1)?;
         for z in &net.zeros {
             ch.draw_series(std::iter::once(Circle::new(
                 (z.re, z.im),

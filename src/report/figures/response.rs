@@ -1,9 +1,10 @@
 //! Ideal h(t) against the predicted y(t)/area over the run, with a zoom on the first fastest
 //! time scales, where the two differ most.
 
-use super::{
-    Area, Axis, BAND, Component, DIRECT, IDEAL, INK, Key, Meta, PREDICTED, components, curve,
-    decimate, label, legend, panel, pe, render, time_tick, titled, unit_tick, y_range,
+use super::axis::Axis;
+use super::canvas::{
+    Area, BAND, Component, DIRECT, IDEAL, INK, Key, Meta, PREDICTED, components, curve, decimate,
+    label, legend, panel, pe, render, time_tick, titled, unit_tick, y_range,
 };
 use crate::plan::Prepared;
 use crate::pulse::Trapezoid;
@@ -117,7 +118,7 @@ pub fn response_svg(
         if known {
             unit_tick(*v, "/s")
         } else {
-            super::ratio_tick(*v)
+            super::canvas::ratio_tick(*v)
         }
     };
 

@@ -1,8 +1,9 @@
 //! The stimulus: one trapezoid with its amplitude, 50 % width, centroid and 10–90 % edges.
 
-use super::{
-    Area, Axis, INK, MARK, Meta, PLANNED, PREDICTED, RULE, curve, label, panel, pe, render,
-    segment, time_tick, titled,
+use super::axis::Axis;
+use super::canvas::{
+    Area, INK, MARK, Meta, PLANNED, PREDICTED, RULE, curve, label, panel, pe, render, segment,
+    time_tick, titled,
 };
 use crate::pulse::Trapezoid;
 use crate::units::Signal;
@@ -55,7 +56,7 @@ pub fn stimulus_svg(pulse: &Trapezoid, drive: Signal) -> io::Result<String> {
     render(700, &mut meta, |root: &Area<'_>, meta: &mut Meta| {
         let body = titled(root, title, &sub)?;
         let (top, bottom) = body.split_vertically(360);
-        let (left, right) = bottom.split_horizontally(super::WIDTH as i32 / 2);
+        let (left, right) = bottom.split_horizontally(super::canvas::WIDTH as i32 / 2);
 
         // Whole pulse.
         let x = Axis::linear(-0.1 * end, 1.1 * end);

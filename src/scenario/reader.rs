@@ -1,0 +1,125 @@
+//! Reading values out of one scenario file: quantities as written, spans turned into line
+//! numbers, and the error type every message uses.
+
+use crate::units::{self, Dim};
+use num_complex::Complex64;
+use serde::Deserialize;
+use std::ops::Range;
+use toml::Spanned;
+
+/// A bad scenario: where, which key, what is wrong.
+#[derive(Debug, thiserror::Error, Clone, PartialEq)]
+#[error("{file}:{line}: {key}: {message}")]
+pub struct ScenarioError {
+    /// File name as given.
+    pub file: String,
+    /// 1-based line (1 when the problem concerns the whole file).
+    pub line: usize,
+    /// Dotted key, e.g. `network.poles[1]`.
+    pub key: String,
+    /// What is wrong and what would be accepted.
+    pub message: String,
+}
+
+/// A quantity as written: a TOML number or a string with engineering notation.
+#[derive(Debug, Clone, Deserialize)]
+#[serde(untagged)]
+pub(crate) enum Qty {
+    Int(i64),
+    Float(f64),
+    Text(String),
+}
+
+pub(crate) type SQty = Spanned<Qty>;
+pub(crate) type SList = Spanned<Vec<SQty>>;
+
+/// Reads one file's values, turning spans into line numbers for messages.
+pub(crate) struct Reader<'a> {
+    pub(crate) file: &'a str,
+    /// Byte offset of the start of each line after the first, ascending.
+    line_starts: Vec<usize>,
+}
+
+impl<'a> Reader<'a> {
+    /// Index the text's lines once, so every lookup is a binary search.
+    pub(crate) fn new(file: &'a str, text: &str) -> Reader<'a> {
+        let line_starts = text
+            .bytes()
+            .enumerate()
+            .filter(|&(_, b)| b == b'\n')
+            .map(|(i, _)| i + 1)
+            .collect();
+        Reader { file, line_starts }
+    }
+
+    pub(crate) fn line_of(&self, span: &Range<usize>) -> usize {
+        self.line_starts.partition_point(|&s| s <= span.start) + 1
+    }
+
+    pub(crate) fn err(
+        &self,
+        span: Option<&Range<usize>>,
+        key: &str,
+        message: impl Into<String>,
+    ) -> ScenarioError {
+        ScenarioError {
+            file: self.file.to_string(),
+            line: span.map_or(1, |s| self.line_of(s)),
+            key: key.to_string(),
+            message: message.into(),
+        }
+    }
+
+    pub(crate) fn number(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
+        let v = match q.get_ref() {
+            Qty::Int(i) => *i as f64,
+            Qty::Float(f) => *f,
+            Qty::Text(t) => units::parse_quantity(t, dim)
+                .map_err(|e| self.err(Some(&q.span()), key, e.to_string()))?,
+        };
+        if !v.is_finite() {
+            return Err(self.err(Some(&q.span()), key, format!("{v} is not a finite number")));
+        }
+        Ok(v)
+    }
+
+    pub(crate) fn positive(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
+        let v = self.number(q, key, dim)?;
+        if v <= 0.0 {
+            return Err(self.err(Some(&q.span()), key, format!("must be positive, got {v}")));
+        }
+        Ok(v)
+    }
+
+    pub(crate) fn list(&self, l: &SList, key: &str, dim: Dim) -> Result<Vec<f64>, ScenarioError> {
+        l.get_ref()
+            .iter()
+            .enumerate()
+            .map(|(i, q)| self.number(q, &format!("{key}[{i}]"), dim))
+            .collect()
+    }
+
+    pub(crate) fn complex_list(
+        &self,
+        l: &SList,
+        key: &str,
+    ) -> Result<Vec<Complex64>, ScenarioError> {
+        l.get_ref()
+            .iter()
+            .enumerate()
+            .map(|(i, q)| {
+                let k = format!("{key}[{i}]");
+                let z = match q.get_ref() {
+                    Qty::Int(v) => Complex64::new(*v as f64, 0.0),
+                    Qty::Float(v) => Complex64::new(*v, 0.0),
+                    Qty::Text(t) => units::parse_complex(t)
+                        .map_err(|e| self.err(Some(&q.span()), &k, e.to_string()))?,
+                };
+                if !(z.re.is_finite() && z.im.is_finite()) {
+                    return Err(self.err(Some(&q.span()), &k, "is not a finite number"));
+                }
+                Ok(z)
+            })
+            .collect()
+    }
+}
