@@ -244,19 +244,33 @@ pub struct WindowError {
 }
 
 /// First-order analytic estimate: for a unit-area pulse y ≈ h(t − c) + ½σ²h″(t − c).
+///
+/// It is printed only inside its validity: when the terms it leaves out, bounded mode by mode
+/// (|rₖ|·|remainder of the moment expansion at pₖ|, see
+/// [`Trapezoid::expansion_remainders`]), stay below [`FIRST_ORDER_VALIDITY`] of it — that is,
+/// when the pulse is short against the local time scale of h.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct FirstOrder {
-    /// Raw error at 0⁺ ≈ h′(0⁺)(end − c) + ½σ²h″(0⁺), relative.
-    pub t0_rel: f64,
-    /// Aligned error ≈ ½σ²h″(end − c), relative.
-    pub t0_aligned_rel: f64,
+    /// Raw error at 0⁺ ≈ h′(0⁺)δ + ½(σ² + δ²)h″(0⁺), δ = end − c (the reading at the pulse's
+    /// end to second order in the pulse's extent), relative (None outside its validity).
+    pub t0_rel: Option<f64>,
+    /// Aligned error ≈ ½σ²h″(end − c), relative (None outside its validity).
+    pub t0_aligned_rel: Option<f64>,
     /// The pulse's standard deviation σ about its centroid, s.
     pub sigma: f64,
+    /// Bound on the left-out terms of the raw estimate, relative (None: not finite).
+    pub t0_remainder: Option<f64>,
+    /// Bound on the left-out terms of the aligned estimate, relative.
+    pub t0_aligned_remainder: Option<f64>,
     /// Rounding level of `t0_rel` (derivatives of the modal sum amplify rounding by |p|).
     pub t0_floor: f64,
     /// Rounding level of `t0_aligned_rel`.
     pub t0_aligned_floor: f64,
 }
+
+/// The first-order estimate is shown when the terms it leaves out are below this share of it
+/// (our choice).
+pub const FIRST_ORDER_VALIDITY: f64 = 0.1;
 
 /// The full error estimate for one pulse.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -354,8 +368,9 @@ fn read_cursors(modal: &Modal, h: &FreeResponse, pulse: &Trapezoid, times: &[f64
     times
         .iter()
         .map(|&t| {
-            let ideal = if t > 0.0 { h.at(t) } else { 0.0 };
-            let ideal_aligned = if t > c { h.at(t - c) } else { 0.0 };
+            // h at t = 0 is h(0⁺) (the impulse's own δ term is not a value).
+            let ideal = if t >= 0.0 { h.at(t) } else { 0.0 };
+            let ideal_aligned = if t >= c { h.at(t - c) } else { 0.0 };
             let predicted = driven.at(t) / area;
             Cursor {
                 t,
@@ -372,6 +387,7 @@ fn read_cursors(modal: &Modal, h: &FreeResponse, pulse: &Trapezoid, times: &[f64
 /// The network's exact machinery, prepared once and reused for many pulses.
 #[derive(Debug, Clone)]
 pub struct Estimator {
+    modes: Vec<Mode>,
     modal: Modal,
     h: FreeResponse,
     h0: f64,
@@ -406,7 +422,7 @@ impl Estimator {
                 .collect()
         };
         let h0 = shape.h0;
-        let (normalised_by, normaliser) = if h0.abs() > 1e-9 * shape.peak {
+        let (normalised_by, normaliser) = if !net.h0_negligible() && h0.abs() > 1e-9 * shape.peak {
             (NormalisedBy::H0Plus, h0.abs())
         } else {
             (NormalisedBy::Peak, shape.peak)
@@ -426,6 +442,7 @@ impl Estimator {
             .sum();
         let floor = f64::EPSILON * modal_size / normaliser;
         Estimator {
+            modes: net.modes.clone(),
             modal,
             h,
             h0,
@@ -578,7 +595,25 @@ impl Estimator {
         }
         let (t0, t0_aligned) = self.readings(pulse);
         let window = self.window(pulse, run);
+        let first_order = self.first_order(pulse);
+        ErrorEstimate {
+            t0,
+            t0_aligned,
+            window,
+            normalised_by: self.normalised_by,
+            normaliser: self.normaliser,
+            first_order,
+            per_mode: Vec::new(),
+            floor: self.floor,
+        }
+    }
+}
+
+impl Estimator {
+    /// The first-order estimates with their validity (see [`FirstOrder`]).
+    pub fn first_order(&self, pulse: &Trapezoid) -> FirstOrder {
         let c = pulse.centroid();
+        let delta = pulse.end() - c;
         let var = pulse.variance();
         let d1 = self.h.derivative(1);
         let d2 = self.h.derivative(2);
@@ -592,23 +627,48 @@ impl Estimator {
                 * f64::EPSILON
                 / self.normaliser
         };
-        let first_order = FirstOrder {
-            t0_rel: (d1.at(0.0) * (pulse.end() - c) + 0.5 * var * d2.at(0.0)) / self.normaliser,
-            t0_aligned_rel: 0.5 * var * d2.at(pulse.end() - c) / self.normaliser,
-            sigma: var.sqrt(),
-            t0_floor: size(1) * (pulse.end() - c) + size(2) * 0.5 * var,
-            t0_aligned_floor: size(2) * 0.5 * var,
+        let t0_rel =
+            (d1.at(0.0) * delta + 0.5 * (var + delta * delta) * d2.at(0.0)) / self.normaliser;
+        let aligned_rel = 0.5 * var * d2.at(delta) / self.normaliser;
+        let t0_floor = size(1) * delta + size(2) * 0.5 * (var + delta * delta);
+        let aligned_floor = size(2) * 0.5 * var;
+        let (rem_aligned, rem_raw) = self.remainders(pulse, delta);
+        let within = |v: f64, rem: Option<f64>, floor: f64| {
+            rem.is_some_and(|r| {
+                r <= FIRST_ORDER_VALIDITY * v.abs() || r.max(v.abs()) <= 10.0 * floor
+            })
         };
-        ErrorEstimate {
-            t0,
-            t0_aligned,
-            window,
-            normalised_by: self.normalised_by,
-            normaliser: self.normaliser,
-            first_order,
-            per_mode: Vec::new(),
-            floor: self.floor,
+        FirstOrder {
+            t0_rel: within(t0_rel, rem_raw, t0_floor).then_some(t0_rel),
+            t0_aligned_rel: within(aligned_rel, rem_aligned, aligned_floor).then_some(aligned_rel),
+            sigma: var.sqrt(),
+            t0_remainder: rem_raw,
+            t0_aligned_remainder: rem_aligned,
+            t0_floor,
+            t0_aligned_floor: aligned_floor,
         }
+    }
+
+    /// Bounds on the terms the aligned and raw first-order estimates leave out, relative:
+    /// Σₖ |rₖ|·|e^(pₖ(end−c))|·|aligned remainder at pₖ| and Σₖ |rₖ|·|raw remainder at pₖ|, a
+    /// repeated mode counted with its size Σⱼ|rⱼ|/|p|^(j−1). `None` when a mode is too fast for
+    /// the expansion to mean anything.
+    fn remainders(&self, pulse: &Trapezoid, delta: f64) -> (Option<f64>, Option<f64>) {
+        let mut aligned = 0.0;
+        let mut raw = 0.0;
+        for m in &self.modes {
+            let weight = m.size();
+            if weight == 0.0 {
+                continue;
+            }
+            let Some((ra, rr)) = pulse.expansion_remainders(m.pole) else {
+                return (None, None);
+            };
+            aligned += weight * (m.pole * delta).exp().norm() * ra.norm();
+            raw += weight * rr.norm();
+        }
+        let finite = |v: f64| (v.is_finite()).then_some(v / self.normaliser);
+        (finite(aligned), finite(raw))
     }
 }
 
@@ -644,6 +704,8 @@ fn worst_of(per: Vec<ModeError>) -> ErrorEstimate {
             t0_rel: t0.first_order.t0_rel,
             t0_aligned_rel: al.first_order.t0_aligned_rel,
             sigma: t0.first_order.sigma,
+            t0_remainder: t0.first_order.t0_remainder,
+            t0_aligned_remainder: al.first_order.t0_aligned_remainder,
             t0_floor: t0.first_order.t0_floor,
             t0_aligned_floor: al.first_order.t0_aligned_floor,
         },
@@ -667,8 +729,9 @@ mod tests {
 
     #[test]
     fn single_pole_reading_and_first_order() {
-        // Rectangle into a/(s+a): reading/ideal = (1 − e^(−x))/x (handbook closed form), and the
-        // first-order estimate −x/2 from h′(0⁺)(end − c) (Taylor expansion).
+        // Rectangle into a/(s+a): reading/ideal = (1 − e^(−x))/x (handbook closed form), whose
+        // Taylor series −x/2 + x²/6 − x³/24 … the estimate h′(0⁺)δ + ½(σ² + δ²)h″(0⁺) matches to
+        // second order (δ = w/2, σ² = w²/12).
         let a = 100.0;
         let (_, e, shape) = est(NetworkSpec::Polynomial {
             numerator: vec![a],
@@ -685,7 +748,12 @@ mod tests {
         let est = e.estimate(&p, 1.0);
         let want = (-(-x).exp_m1()) / x - 1.0;
         assert!((est.t0.rel - want).abs() < 1e-12);
-        assert!((est.first_order.t0_rel - (-x / 2.0 + x * x / 24.0)).abs() < 1e-12);
+        let first = est
+            .first_order
+            .t0_rel
+            .expect("a 1 % pulse is inside the expansion");
+        assert!((first - (-x / 2.0 + x * x / 6.0)).abs() < 1e-12);
+        assert!((first - want).abs() < x.powi(3) / 24.0 * 1.01);
         // Aligned at the centroid: (reading − h(w/2))/h(0⁺) = (1 − e^(−x))/x − e^(−x/2) (closed form).
         let want_al = (-(-x).exp_m1()) / x - (-x / 2.0).exp();
         assert!((est.t0_aligned.rel - want_al).abs() < 1e-12);

@@ -223,7 +223,7 @@ pub enum Warning {
         /// Its target (fraction).
         target: f64,
     },
-    /// The record does not fit the memory.
+    /// The record does not fit the memory, and two records cannot resolve every mode either.
     CaptureMemory {
         /// Points needed.
         points: u64,
@@ -231,6 +231,8 @@ pub enum Warning {
         interval: f64,
         /// Record length, s.
         record: f64,
+        /// Memory worked to, points.
+        memory: f64,
     },
     /// Too few samples across the pulse.
     CaptureUndersampled {
@@ -330,6 +332,24 @@ pub enum Note {
     },
     /// Noise cannot be assessed without residues.
     NoiseNeedsResidues,
+    /// No `[capture] max_points`: a memory was assumed.
+    MemoryAssumed {
+        /// Points assumed.
+        points: f64,
+    },
+    /// One record would not fit the memory: a fine and a coarse record are planned instead.
+    TwoRecords {
+        /// Points one record would need.
+        needed: u64,
+        /// Memory, points.
+        memory: f64,
+        /// Fine record's sample interval, s.
+        fine_interval: f64,
+        /// Fine record's length, s.
+        fine_length: f64,
+        /// Coarse record's sample interval, s (it spans the whole record).
+        coarse_interval: f64,
+    },
     /// The width needing the fewest averages replaced the bias-only width.
     FewestAverages {
         /// Chosen width, s.
@@ -349,6 +369,8 @@ impl Note {
             Note::NoiseAtPulse { .. } => "noise-at-pulse",
             Note::NoiseNeedsResidues => "noise-needs-residues",
             Note::FewestAverages { .. } => "fewest-averages",
+            Note::MemoryAssumed { .. } => "memory-assumed",
+            Note::TwoRecords { .. } => "two-records",
         }
     }
 }

@@ -4,6 +4,8 @@
 
 use crate::bench::{self, BenchInput, BenchPlan};
 use crate::estimate::ErrorEstimate;
+use crate::netlist::{self, NetlistSpec, Output, Stimulus};
+use crate::network::{Network, NetworkSpec};
 use crate::notice::{Note, Warning};
 use crate::plan::{self, Budget, Prepared, Robust};
 use crate::pulse::Trapezoid;
@@ -57,12 +59,38 @@ pub struct AssessOutcome {
     pub warnings: Vec<Warning>,
 }
 
-fn bench_input(sc: &Scenario) -> BenchInput<'_> {
+fn bench_input<'a>(sc: &'a Scenario, terminal: Option<&'a Network>) -> BenchInput<'a> {
     BenchInput {
         drive: sc.drive,
         plan: &sc.plan,
+        area: sc.area,
         bench: &sc.bench,
         residues_known: sc.network.residues_known,
+        terminal,
+    }
+}
+
+/// For a circuit driven by a voltage through a source resistance: the transfer from the
+/// source's open-circuit voltage to the input terminals (the input node is a node of the
+/// circuit), so limits and peaks can be stated where the circuit sees them.
+pub fn terminal_network(sc: &Scenario) -> Option<Network> {
+    let NetworkSpec::Netlist(spec) = &sc.network_spec else {
+        return None;
+    };
+    if spec.stimulus != Stimulus::Voltage || spec.source_resistance.is_none_or(|r| r <= 0.0) {
+        return None;
+    }
+    let port = NetlistSpec {
+        output: Output::Node(spec.input.clone()),
+        ..spec.clone()
+    };
+    match Network::from_spec(&NetworkSpec::Netlist(port.clone())) {
+        Ok(net) => Some(net),
+        // A purely resistive input has no poles: the terminals see a constant share.
+        Err(_) => netlist::state_space(&port)
+            .ok()
+            .filter(|ss| ss.order() == 0)
+            .map(|ss| Network::constant(ss.d)),
     }
 }
 
@@ -74,11 +102,12 @@ pub fn plan(sc: &Scenario) -> PlanOutcome {
 /// Plan a pulse, reporting progress of long steps (tolerance cases) as (done, total).
 pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync)) -> PlanOutcome {
     let choice = plan::choose(&sc.network, &sc.network_spec, sc.area, &sc.plan, progress);
-    let inp = bench_input(sc);
+    let terminal = terminal_network(sc);
+    let inp = bench_input(sc, terminal.as_ref());
     let mut notes = choice.notes.clone();
     let mut fitted = bench::fit(&inp, &choice.prep, &choice.pulse, true);
     if let Some(w) = bench::better_width(&inp, &choice.prep, &choice.pulse, &fitted) {
-        let p = plan::tied_pulse(sc.area, w, sc.plan.edge_ratio);
+        let p = plan::tied_pulse(sc.area.area(w), w, sc.plan.edge_ratio);
         fitted = bench::fit(&inp, &choice.prep, &p, true);
         notes.push(Note::FewestAverages {
             width: w,
@@ -119,7 +148,8 @@ pub fn assess(sc: &Scenario, pulse: &Trapezoid, stated_run: Option<f64>) -> Asse
     warnings.extend(plan::pulse_warnings(
         &sc.plan, &prep, pulse, &estimate, stated_run,
     ));
-    let bench = bench::fit(&bench_input(sc), &prep, pulse, false);
+    let terminal = terminal_network(sc);
+    let bench = bench::fit(&bench_input(sc, terminal.as_ref()), &prep, pulse, false);
     warnings.extend(bench.warnings.iter().cloned());
     AssessOutcome {
         prep,

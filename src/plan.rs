@@ -17,12 +17,15 @@ pub struct PlanSettings {
     pub target_error: Option<f64>,
     /// Metric the budget applies to.
     pub metric: Metric,
+    /// Whether the user chose the metric or the network did (see [`default_metric`]).
+    pub metric_choice: MetricChoice,
     /// Fastest time scale / width for the rule of thumb.
     pub width_ratio: f64,
     /// Width / 10–90 % edge.
     pub edge_ratio: f64,
-    /// The planned width never exceeds τ_fast / this (and a wider pulse is warned about).
-    pub min_width_ratio: f64,
+    /// When set, the planned width never exceeds τ_fast / this (and a wider pulse is warned
+    /// about). Unset, a budget alone sets the width.
+    pub min_width_ratio: Option<f64>,
     /// A mode whose share of Σ dominance is below this does not set the pulse's time scale.
     pub significance: f64,
     /// Monte Carlo samples for tolerances (None: corners when parts are few).
@@ -36,19 +39,93 @@ pub struct PlanSettings {
 impl Default for PlanSettings {
     fn default() -> Self {
         // The trade's rule of thumb (common practice, no source): width ≈ τ_fast/100,
-        // edges ≈ width/100, run ≥ 5 τ_slow, and never wider than τ_fast/10.
+        // edges ≈ width/100, run ≥ 5 τ_slow. A budget, when given, decides the width.
         PlanSettings {
             target_error: None,
             metric: Metric::T0,
+            metric_choice: MetricChoice::ByNetwork,
             width_ratio: 100.0,
             edge_ratio: 100.0,
-            min_width_ratio: 10.0,
+            min_width_ratio: None,
             // Modes under 1 % of the response's L1 bound are not significant (our choice).
             significance: 0.01,
             samples: None,
             seed: 1,
             settle_multiple: 5.0,
         }
+    }
+}
+
+/// The level a generator is assumed to deliver when the scenario gives no `[drive] area`: 5 V
+/// for a voltage drive, 10 mA for a current drive (our choice: levels any bench generator
+/// reaches and no circuit of the trade minds).
+pub const DEFAULT_LEVEL_VOLTS: f64 = 5.0;
+/// See [`DEFAULT_LEVEL_VOLTS`].
+pub const DEFAULT_LEVEL_AMPS: f64 = 0.01;
+
+/// How the pulse's area is chosen.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "rule", rename_all = "snake_case")]
+pub enum AreaRule {
+    /// `[drive] area`, honoured as given (read h(t) ≈ y(t)/area).
+    Given {
+        /// V·s or A·s.
+        area: f64,
+    },
+    /// No area given: the pulse has a fixed amplitude, so area = level × width.
+    FromLevel {
+        /// Amplitude, V or A.
+        level: f64,
+    },
+}
+
+impl AreaRule {
+    /// The default when `[drive] area` is absent: the stated default generator level.
+    pub fn default_for(drive: crate::units::Signal) -> AreaRule {
+        AreaRule::FromLevel {
+            level: match drive {
+                crate::units::Signal::Voltage => DEFAULT_LEVEL_VOLTS,
+                crate::units::Signal::Current => DEFAULT_LEVEL_AMPS,
+            },
+        }
+    }
+
+    /// The area for a pulse of 50 % width `width`.
+    pub fn area(&self, width: f64) -> f64 {
+        match *self {
+            AreaRule::Given { area } => area,
+            AreaRule::FromLevel { level } => level * width,
+        }
+    }
+
+    /// The fixed amplitude, when the rule fixes one.
+    pub fn level(&self) -> Option<f64> {
+        match *self {
+            AreaRule::Given { .. } => None,
+            AreaRule::FromLevel { level } => Some(level),
+        }
+    }
+}
+
+/// Who chose the metric.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum MetricChoice {
+    /// `[plan] metric`.
+    Given,
+    /// The default for the network ([`default_metric`]).
+    ByNetwork,
+}
+
+/// The metric that means something for a network: the raw reading at 0⁺ when h(0⁺) ≠ 0 (the
+/// reading the rule of thumb is about), and the error over the window, against the peak |h|,
+/// when h(0⁺) = 0 (every low-pass of relative degree ≥ 2): a reading at 0⁺ would be compared
+/// with zero.
+pub fn default_metric(net: &Network) -> Metric {
+    if net.h0_negligible() {
+        Metric::Window
+    } else {
+        Metric::T0
     }
 }
 
@@ -319,6 +396,45 @@ pub fn prepare(net: &Network, settings: &PlanSettings) -> Prepared {
     }
 }
 
+/// Without a budget to vouch for it, a pulse wider than the fastest significant time scale / 10
+/// is warned about (common practice, no source).
+pub const RULE_MAX_WIDTH_RATIO: f64 = 10.0;
+
+/// What stopped the budget search from going wider.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(tag = "setting", rename_all = "snake_case")]
+pub enum Cap {
+    /// `[plan] min_width_ratio`: width ≤ fastest significant time scale / ratio.
+    MinWidthRatio {
+        /// The ratio.
+        ratio: f64,
+    },
+    /// The run (record length): a pulse no longer than the record it is read in.
+    RunLength {
+        /// The run, s.
+        run: f64,
+    },
+}
+
+impl Cap {
+    /// The widest width it allows, s.
+    pub fn width(&self, tau_plan: f64) -> f64 {
+        match *self {
+            Cap::MinWidthRatio { ratio } => tau_plan / ratio,
+            Cap::RunLength { run } => run,
+        }
+    }
+}
+
+/// The tighter of the user's `min_width_ratio` (when set) and the run.
+pub fn width_cap(prep: &Prepared, s: &PlanSettings) -> Cap {
+    let run = Cap::RunLength { run: prep.run };
+    match s.min_width_ratio {
+        Some(ratio) if prep.tau_plan / ratio < prep.run => Cap::MinWidthRatio { ratio },
+        _ => run,
+    }
+}
+
 /// A pulse of area `area` and 50 % width `w` with edges tied by the edge ratio.
 pub fn tied_pulse(area: f64, width: f64, edge_ratio: f64) -> Trapezoid {
     Trapezoid::with_area(area, width, width / edge_ratio)
@@ -335,14 +451,14 @@ pub enum Target {
         /// Metric value there (fraction).
         value: f64,
     },
-    /// The budget allows a wider pulse than τ_fast / min_width_ratio; the width is capped there.
+    /// The budget allows a wider pulse than a stated cap; the width is capped there.
     Capped {
         /// Planned (capped) width, s.
         width: f64,
         /// Metric value there.
         value: f64,
-        /// The `[plan] min_width_ratio` that capped it.
-        ratio: f64,
+        /// The setting that capped it.
+        cap: Cap,
     },
     /// Even the narrowest width tried misses the budget.
     Unreachable {
@@ -370,24 +486,22 @@ impl Serialize for Budget {
         match self.target {
             Target::Met { width, value } => {
                 m.serialize_entry("met", &true)?;
+                m.serialize_entry("capped", &false)?;
                 m.serialize_entry("width", &width)?;
                 m.serialize_entry("value", &value)?;
                 m.serialize_entry("widening", &self.widening)?;
             }
-            Target::Capped {
-                width,
-                value,
-                ratio,
-            } => {
+            Target::Capped { width, value, cap } => {
                 m.serialize_entry("met", &true)?;
                 m.serialize_entry("capped", &true)?;
                 m.serialize_entry("width", &width)?;
                 m.serialize_entry("value", &value)?;
                 m.serialize_entry("widening", &self.widening)?;
-                m.serialize_entry("cap_ratio", &ratio)?;
+                m.serialize_entry("capped_by", &cap)?;
             }
             Target::Unreachable { width, value } => {
                 m.serialize_entry("met", &false)?;
+                m.serialize_entry("capped", &false)?;
                 m.serialize_entry("narrowest_tried", &width)?;
                 m.serialize_entry("value", &value)?;
             }
@@ -398,7 +512,7 @@ impl Serialize for Budget {
 
 /// Search for the widest pulse whose metric stays within the budget, with all narrower widths
 /// also within it (the first crossing, scanning up in steps of 2^(1/4), then bisection on log
-/// width), never wider than τ_fast / min_width_ratio.
+/// width), never wider than the cap ([`width_cap`]).
 pub fn widest_within(
     est: &Estimator,
     prep: &Prepared,
@@ -412,7 +526,8 @@ pub fn widest_within(
     };
     let step = 2f64.powf(0.25);
     let floor = prep.tau_plan * 1e-9;
-    let ceiling = prep.tau_plan / settings.min_width_ratio;
+    let cap = width_cap(prep, settings);
+    let ceiling = cap.width(prep.tau_plan);
     let start = (prep.tau_plan / settings.width_ratio).min(ceiling);
     let (mut lo, mut hi);
     if f(start) <= budget {
@@ -424,7 +539,7 @@ pub fn widest_within(
                     return Target::Capped {
                         width: ceiling,
                         value: f(ceiling),
-                        ratio: settings.min_width_ratio,
+                        cap,
                     };
                 }
                 hi = ceiling;
@@ -548,13 +663,13 @@ fn tolerances(
 pub fn choose(
     net: &Network,
     spec: &NetworkSpec,
-    area: f64,
+    area: AreaRule,
     s: &PlanSettings,
     progress: &(dyn Fn(usize, usize) + Sync),
 ) -> PulseChoice {
     let mut prep = prepare(net, s);
     let rule_width = prep.tau_plan / s.width_ratio;
-    let rule = tied_pulse(area, rule_width, s.edge_ratio);
+    let rule = tied_pulse(area.area(rule_width), rule_width, s.edge_ratio);
     let rule_estimate = prep.estimator.estimate(&rule, prep.run);
     let (target, mut width) = allowed_width(&prep, s);
     let widening = matches!(target, Some(Target::Met { .. } | Target::Capped { .. }))
@@ -591,7 +706,7 @@ pub fn choose(
         });
     }
     PulseChoice {
-        pulse: tied_pulse(area, width, s.edge_ratio),
+        pulse: tied_pulse(area.area(width), width, s.edge_ratio),
         prep,
         rule,
         rule_estimate,
@@ -623,10 +738,20 @@ pub fn pulse_warnings(
             });
         }
     }
-    if width > prep.tau_plan / s.min_width_ratio * (1.0 + 1e-9) {
+    // A met budget vouches for a wide pulse; the user's own ratio, or without a budget the
+    // rule of thumb, is held against it otherwise.
+    let vouched = s
+        .target_error
+        .is_some_and(|b| estimate.metric(s.metric) <= b * (1.0 + 1e-9));
+    let ratio = match s.min_width_ratio {
+        Some(r) => Some(r),
+        None if !vouched => Some(RULE_MAX_WIDTH_RATIO),
+        None => None,
+    };
+    if let Some(ratio) = ratio.filter(|r| width > prep.tau_plan / r * (1.0 + 1e-9)) {
         out.push(Warning::PulseWideForNetwork {
             width,
-            ratio: s.min_width_ratio,
+            ratio,
             tau: prep.tau_plan,
         });
     }

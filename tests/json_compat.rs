@@ -4,7 +4,8 @@
 //!
 //! Every field the old JSON had must still be there, with the same JSON type (scripts read
 //! these names); new fields may be added. Numbers are compared only where the plan's
-//! behaviour has not been changed on purpose since (see `VALUE_CHECKED`).
+//! behaviour has not been changed on purpose since (see `VALUE_CHECKED`); the reorganisation
+//! itself (commit 6aefa15) was checked value by value against every field.
 
 use serde_json::Value;
 use std::path::{Path, PathBuf};
@@ -28,6 +29,11 @@ fn kind(v: &Value) -> &'static str {
         Value::Object(_) => "object",
     }
 }
+
+/// Parts of the JSON whose numbers the plan's later changes of behaviour (the budget governs
+/// the width, the default metric, the first-order estimate's validity, the capture memory)
+/// leave untouched: the network's figures. Elsewhere only names and types are held fixed.
+const VALUE_CHECKED: &[&str] = &["network"];
 
 /// Walk the old JSON: every key must exist in the new one with the same type; with `values`,
 /// numbers must agree to 1e-12 relative and strings and booleans exactly.
@@ -114,7 +120,19 @@ fn check(values: bool) {
         sorted_warnings(&mut old);
         sorted_warnings(&mut new);
         let mut out = Vec::new();
-        compare(&old, &new, &format!("{stem}.{cmd}"), values, &mut out);
+        if values {
+            for key in VALUE_CHECKED {
+                compare(
+                    &old[key],
+                    &new[key],
+                    &format!("{stem}.{cmd}.{key}"),
+                    true,
+                    &mut out,
+                );
+            }
+        } else {
+            compare(&old, &new, &format!("{stem}.{cmd}"), false, &mut out);
+        }
         problems.extend(out);
     }
     assert!(Path::new(&root()).exists());
@@ -127,6 +145,6 @@ fn every_old_field_is_still_there_with_its_type() {
 }
 
 #[test]
-fn values_unchanged_by_the_reorganisation() {
+fn network_figures_unchanged() {
     check(true);
 }

@@ -354,7 +354,7 @@ fn design_marker_sits_at_the_planned_width_and_value() {
         let mut checked = 0;
         for q in curve.iter().flatten().step_by(7) {
             let (w, _) = p.to_data(q.0, q.1);
-            let pulse = plan::tied_pulse(sc.area, w, sc.plan.edge_ratio);
+            let pulse = plan::tied_pulse(sc.area.area(w), w, sc.plan.edge_ratio);
             let m = out.prep.estimator.metric(
                 &pulse,
                 sc.plan.metric,

@@ -5,6 +5,7 @@ use super::settings::{BenchInput, HAZARD_VOLTS};
 use crate::notice::{AmplitudeLimit, LimitHit, Note, Warning};
 use crate::plan::Prepared;
 use crate::pulse::Trapezoid;
+use crate::response::Modal;
 use crate::units::Signal;
 use serde::Serialize;
 
@@ -34,10 +35,16 @@ pub struct AmplitudeFit {
     pub open_over_display: f64,
     /// Area scaling.
     pub scaling: Scaling,
-    /// Predicted peak at the circuit's input (the pulse amplitude).
+    /// Predicted peak of the source's level: the pulse amplitude (the open-circuit level when
+    /// the circuit is driven through a source resistance).
     pub peak_input: f64,
+    /// Predicted peak |v| at the circuit's input terminals, when a source resistance lies
+    /// between the source and the terminals (None otherwise: the terminals see `peak_input`).
+    pub peak_terminal: Option<f64>,
     /// Predicted peak |y| at the output over the run (direct-term copy included).
     pub peak_output: f64,
+    /// The output's value at that peak, with its sign.
+    pub output_extreme: f64,
 }
 
 /// The amplitude step's result: the pulse, its figures, and what it raised.
@@ -53,28 +60,50 @@ pub struct AmplitudeStep {
     pub notes: Vec<Note>,
 }
 
-/// Peak |y(t)| over [0, run] for a pulse (direct term included while the input is non-zero).
+/// The output's largest excursion over [0, run] for a pulse, with its sign (direct term
+/// included while the input is non-zero).
 pub fn peak_output(prep: &Prepared, pulse: &Trapezoid, run: f64) -> f64 {
-    let d = prep.estimator.modal().drive(&pulse.breakpoints());
+    extreme_of(prep.estimator.modal(), prep.tau_fast, pulse, run)
+}
+
+/// Peak |y(t)| of a modal realization's response over [0, run].
+pub fn peak_of(modal: &Modal, tau_fast: f64, pulse: &Trapezoid, run: f64) -> f64 {
+    extreme_of(modal, tau_fast, pulse, run).abs()
+}
+
+/// The value of largest magnitude of a modal realization's response over [0, run], signed: 201
+/// points across the pulse, 4000 uniform and 401 geometric (from `tau_fast`/1000) after it.
+pub fn extreme_of(modal: &Modal, tau_fast: f64, pulse: &Trapezoid, run: f64) -> f64 {
+    let d = modal.drive(&pulse.breakpoints());
     let end = pulse.end();
-    let inside = (0..=200).map(|k| d.at(end * k as f64 / 200.0).abs());
+    let inside = (0..=200).map(|k| d.at(end * k as f64 / 200.0));
     let span = (run - end).max(end);
     let n = 4000;
     let after = d.after_end();
     let uniform = after.uniform(end, span / (n - 1) as f64, n);
-    let start = (prep.tau_fast * 1e-3).min(span / 10.0);
+    let start = (tau_fast * 1e-3).min(span / 10.0);
     let ratio = (span / start).powf(1.0 / 400.0);
-    let geometric = (0..=400).map(|k| after.at(end + start * ratio.powi(k)).abs());
+    let geometric = (0..=400).map(|k| after.at(end + start * ratio.powi(k)));
     inside
-        .chain(uniform.iter().map(|v| v.abs()))
+        .chain(uniform.iter().copied())
         .chain(geometric)
-        .fold(0.0, f64::max)
+        .fold(
+            0.0,
+            |best: f64, v| if v.abs() > best.abs() { v } else { best },
+        )
 }
 
-/// The amplitude limit that applies: the smaller of the generator's and the circuit input's.
-fn input_limit(inp: &BenchInput) -> Option<(AmplitudeLimit, f64)> {
+/// The amplitude limit that applies to the source's level: the smaller of the generator's and
+/// the circuit input's (the latter referred back through the source resistance: the terminals
+/// see `terminal_ratio` × the source level at their peak).
+fn input_limit(inp: &BenchInput, terminal_ratio: f64) -> Option<(AmplitudeLimit, f64)> {
     let g = inp.bench.generator.as_ref().and_then(|g| g.max_amplitude);
-    let c = inp.bench.limits.as_ref().and_then(|l| l.max_input);
+    let c = inp
+        .bench
+        .limits
+        .as_ref()
+        .and_then(|l| l.max_input)
+        .map(|m| m / terminal_ratio);
     match (g, c) {
         (Some(g), Some(c)) if c <= g => Some((AmplitudeLimit::CircuitInput, c)),
         (Some(g), _) => Some((AmplitudeLimit::Generator, g)),
@@ -94,26 +123,41 @@ pub fn fit(
     let mut pulse = *timed;
     let mut reasons = Vec::new();
     let mut warnings = Vec::new();
-    let limit = input_limit(inp);
+    // Peak at the terminals per unit source amplitude (linear, so one evaluation serves).
+    let terminal_ratio = inp.terminal.map_or(1.0, |net| {
+        let unit = Trapezoid {
+            amplitude: 1.0,
+            ..*timed
+        };
+        peak_of(&Modal::new(net), prep.tau_fast, &unit, prep.run).max(f64::MIN_POSITIVE)
+    });
+    let limit = input_limit(inp, terminal_ratio);
     if let Some((which, lim)) = limit
         && pulse.amplitude.abs() > lim
     {
+        // The circuit's limit is stated at its terminals: word it there.
+        let at = if which == AmplitudeLimit::CircuitInput {
+            terminal_ratio
+        } else {
+            1.0
+        };
         if adapt {
             reasons.push(LimitHit {
                 which,
-                value: pulse.amplitude,
-                limit: lim,
+                value: pulse.amplitude * at,
+                limit: lim * at,
             });
             pulse.amplitude = lim.copysign(pulse.amplitude);
         } else if pulse.amplitude.abs() > lim * (1.0 + 1e-12) {
             warnings.push(Warning::AmplitudeExceedsLimit {
-                amplitude: pulse.amplitude,
-                limit: lim,
+                amplitude: pulse.amplitude * at,
+                limit: lim * at,
                 which,
             });
         }
     }
-    let mut peak_out = peak_output(prep, &pulse, prep.run);
+    let mut extreme = peak_output(prep, &pulse, prep.run);
+    let mut peak_out = extreme.abs();
     let max_out = inp.bench.limits.as_ref().and_then(|l| l.max_output);
     if let Some(max_out) = max_out.filter(|&m| peak_out > m) {
         if adapt {
@@ -125,6 +169,7 @@ pub fn fit(
             let k = max_out / peak_out;
             pulse.amplitude *= k;
             peak_out *= k;
+            extreme *= k;
         } else {
             warnings.push(Warning::OutputBeyondRange {
                 peak: peak_out,
@@ -170,7 +215,9 @@ pub fn fit(
         open_over_display,
         scaling,
         peak_input: pulse.amplitude.abs(),
+        peak_terminal: inp.terminal.map(|_| pulse.amplitude.abs() * terminal_ratio),
         peak_output: peak_out,
+        output_extreme: extreme,
     };
     AmplitudeStep {
         pulse,

@@ -1,7 +1,7 @@
 //! The capture plan: sample interval, record length with pre-trigger, memory, averaging.
 
 use super::settings::Capture;
-use crate::notice::Warning;
+use crate::notice::{Note, Warning};
 use crate::pulse::Trapezoid;
 use serde::Serialize;
 
@@ -51,20 +51,45 @@ pub struct CapturePlan {
     pub fits_memory: bool,
     /// When it does not fit: a fine record over the start and a coarse one over the run.
     pub split: Option<(Record, Record)>,
+    /// Whether the two records together resolve every mode (true when one record fits).
+    pub split_resolves: bool,
+    /// Record memory worked to, points.
+    pub memory: f64,
+    /// True when `memory` is [`DEFAULT_MAX_POINTS`], assumed for want of `[capture] max_points`.
+    pub memory_assumed: bool,
     /// Samples across the 50 % width actually obtained (below the aim when the rate is limited).
     pub samples_across_pulse: f64,
     /// What to trigger on.
     pub trigger: Trigger,
 }
 
-/// Plan the capture for a pulse, the fastest significant time scale and the run.
+/// Record memory assumed when `[capture] max_points` is not given: 10 M points (a common
+/// figure for bench oscilloscopes; common practice, no source).
+pub const DEFAULT_MAX_POINTS: f64 = 1e7;
+
+/// A mode the capture must resolve: its time scale 1/|p| and decay time 1/|Re p| (s).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Dynamics {
+    /// 1/|p|, s.
+    pub scale: f64,
+    /// 1/|Re p|, s (infinite for a mode that does not decay).
+    pub decay: f64,
+}
+
+/// Plan the capture for a pulse, the significant modes' dynamics and the run. When one record
+/// at the fine interval does not fit the memory (stated, or [`DEFAULT_MAX_POINTS`]), it is
+/// split into a fine record over the start and a coarse one over the whole run.
 pub fn plan_capture(
     pulse: &Trapezoid,
-    tau_fast: f64,
+    dynamics: &[Dynamics],
     run: f64,
     capture: Option<&Capture>,
     averages: u64,
 ) -> CapturePlan {
+    let tau_fast = dynamics
+        .iter()
+        .map(|d| d.scale)
+        .fold(f64::INFINITY, f64::min);
     let want = (pulse.width_50() / SAMPLES_PER_WIDTH).min(tau_fast / SAMPLES_PER_TIME_SCALE);
     let min_interval = capture
         .and_then(|c| c.max_sample_rate)
@@ -72,24 +97,18 @@ pub fn plan_capture(
     let interval = want.max(min_interval);
     let record_length = run / (1.0 - PRE_TRIGGER_SHARE);
     let pre_trigger = record_length * PRE_TRIGGER_SHARE;
-    let points = (record_length / interval).ceil() as u64 + 1;
-    let max_points = capture.and_then(|c| c.max_points).unwrap_or(f64::INFINITY);
-    let fits_memory = (points as f64) <= max_points;
-    let split = (!fits_memory).then(|| {
-        let mp = max_points.floor().max(2.0) as u64;
-        let fine = Record {
-            interval,
-            length: interval * (mp - 1) as f64,
-            points: mp,
-        };
-        let coarse_interval = record_length / (mp - 1) as f64;
-        let coarse = Record {
-            interval: coarse_interval,
-            length: record_length,
-            points: mp,
-        };
-        (fine, coarse)
-    });
+    // Counted in f64: a huge ratio must not wrap a cast.
+    let count = (record_length / interval).ceil() + 1.0;
+    let points = if count < u64::MAX as f64 {
+        count as u64
+    } else {
+        u64::MAX
+    };
+    let stated = capture.and_then(|c| c.max_points);
+    let max_points = stated.unwrap_or(DEFAULT_MAX_POINTS);
+    let fits_memory = count <= max_points;
+    let split = (!fits_memory).then(|| split_records(interval, record_length, max_points));
+    let split_resolves = split.is_none_or(|(fine, coarse)| resolves(&fine, &coarse, dynamics));
     CapturePlan {
         sample_interval: interval,
         sample_rate: 1.0 / interval,
@@ -99,20 +118,61 @@ pub fn plan_capture(
         averages,
         fits_memory,
         split,
+        split_resolves,
+        memory: max_points,
+        memory_assumed: stated.is_none(),
         samples_across_pulse: pulse.width_50() / interval,
         trigger: Trigger::GeneratorSync,
     }
 }
 
-/// Warnings about the capture: memory too small, too few samples across the pulse.
-pub fn warnings(cap: &CapturePlan, pulse: &Trapezoid) -> Vec<Warning> {
+/// A fine record at `interval` filling the memory, and a coarse one over the whole record.
+fn split_records(interval: f64, record_length: f64, max_points: f64) -> (Record, Record) {
+    let mp = max_points.floor().max(2.0);
+    let fine = Record {
+        interval,
+        length: interval * (mp - 1.0),
+        points: mp as u64,
+    };
+    let coarse = Record {
+        interval: record_length / (mp - 1.0),
+        length: record_length,
+        points: mp as u64,
+    };
+    (fine, coarse)
+}
+
+/// Whether two records together resolve every mode: each mode is either sampled finely enough
+/// by the coarse record, or has decayed to 0.1 % (ln 1000 decay times) within the fine record.
+fn resolves(fine: &Record, coarse: &Record, dynamics: &[Dynamics]) -> bool {
+    dynamics.iter().all(|d| {
+        coarse.interval <= d.scale / SAMPLES_PER_TIME_SCALE || fine.length >= 1000f64.ln() * d.decay
+    })
+}
+
+/// Warnings and notes about the capture: memory too small even for two records, too few
+/// samples across the pulse, the memory assumed, the two records planned.
+pub fn warnings(cap: &CapturePlan, pulse: &Trapezoid) -> (Vec<Warning>, Vec<Note>) {
     let mut out = Vec::new();
-    if !cap.fits_memory {
-        out.push(Warning::CaptureMemory {
+    let mut notes = Vec::new();
+    if cap.memory_assumed && !cap.fits_memory {
+        notes.push(Note::MemoryAssumed { points: cap.memory });
+    }
+    match (&cap.split, cap.split_resolves) {
+        (Some((fine, coarse)), true) => notes.push(Note::TwoRecords {
+            needed: cap.points,
+            memory: cap.memory,
+            fine_interval: fine.interval,
+            fine_length: fine.length,
+            coarse_interval: coarse.interval,
+        }),
+        (Some(_), false) => out.push(Warning::CaptureMemory {
             points: cap.points,
             interval: cap.sample_interval,
             record: cap.record_length,
-        });
+            memory: cap.memory,
+        }),
+        (None, _) => {}
     }
     if cap.samples_across_pulse < SAMPLES_PER_WIDTH * (1.0 - 1e-9) {
         out.push(Warning::CaptureUndersampled {
@@ -120,7 +180,7 @@ pub fn warnings(cap: &CapturePlan, pulse: &Trapezoid) -> Vec<Warning> {
             width: pulse.width_50(),
         });
     }
-    out
+    (out, notes)
 }
 
 #[cfg(test)]
@@ -135,7 +195,11 @@ mod tests {
             max_points: Some(1e6),
             ..Capture::default()
         };
-        let plan = plan_capture(&p, 1e-4, 1.0, Some(&c), 4);
+        let dynamics = [Dynamics {
+            scale: 1e-4,
+            decay: 1e-4,
+        }];
+        let plan = plan_capture(&p, &dynamics, 1.0, Some(&c), 4);
         assert!(plan.sample_rate <= 2.5e9 * (1.0 + 1e-12));
         assert!((plan.sample_interval - 1e-7).abs() < 1e-20);
         assert!(!plan.fits_memory);

@@ -60,6 +60,28 @@ pub struct BenchPlan {
     pub notes: Vec<Note>,
 }
 
+/// The significant modes' time scales, for the capture plan.
+fn dynamics(prep: &Prepared) -> Vec<capture::Dynamics> {
+    let d: Vec<capture::Dynamics> = prep
+        .facts
+        .modes
+        .iter()
+        .filter(|m| m.significant && m.natural_frequency > 0.0)
+        .map(|m| capture::Dynamics {
+            scale: 1.0 / m.natural_frequency,
+            decay: m.time_constant.unwrap_or(f64::INFINITY),
+        })
+        .collect();
+    if d.is_empty() {
+        vec![capture::Dynamics {
+            scale: prep.tau_plan,
+            decay: prep.tau_slow.unwrap_or(f64::INFINITY),
+        }]
+    } else {
+        d
+    }
+}
+
 /// The budget the bench works to: the user's, or the pulse's own error (at least 0.1 %).
 fn working_budget(s: &PlanSettings, estimate: &ErrorEstimate) -> f64 {
     s.target_error
@@ -107,12 +129,14 @@ pub fn fit(inp: &BenchInput, prep: &Prepared, planned: &Trapezoid, adapt: bool) 
     warnings.extend(repeat::warnings(period.as_ref()));
     let cap = capture::plan_capture(
         &pulse,
-        prep.tau_plan,
+        &dynamics(prep),
         prep.run,
         inp.bench.capture.as_ref(),
         noise.fit.averages.unwrap_or(1),
     );
-    warnings.extend(capture::warnings(&cap, &pulse));
+    let (w, n) = capture::warnings(&cap, &pulse);
+    warnings.extend(w);
+    notes.extend(n);
     BenchPlan {
         planned: *planned,
         pulse,
@@ -140,7 +164,8 @@ pub fn better_width(
     let sigma = inp.bench.capture.as_ref().and_then(|c| c.noise)?;
     delivered.noise.noise.as_ref()?;
     let limited = (!delivered.amplitude.scaling.reasons.is_empty())
-        .then_some(delivered.pulse.amplitude.abs());
+        .then_some(delivered.pulse.amplitude.abs())
+        .or(inp.area.level());
     let w_hi = planned.width_50();
     let (w, _) = noise::fewest_averages(
         &prep.estimator,

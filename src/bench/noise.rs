@@ -94,12 +94,12 @@ pub fn noise_curves(
     }
 }
 
-/// The width that needs the fewest averages to bring bias + noise/√N within the budget:
-/// minimises g(w) = noise(w)/(budget − bias(w)) (N = ⌈g²⌉, white noise averaging as 1/√N) over
-/// (w_hi/10⁴, w_hi], and returns the widest width whose g is within 2 % of that minimum (when
-/// the amplitude is not limited, noise does not depend on width and any narrow pulse will do:
-/// the widest such one keeps the most margin from the edges). `amplitude_limit` is the largest
-/// amplitude the bench allows (None: the area is kept, amplitude = area/width).
+/// The width that needs the fewest averages to bring bias + noise/√N within the budget, and
+/// among the widths that need that few, the widest (the lowest amplitude, the most margin from
+/// the generator's edges). N(w) = ⌈(noise(w)/(budget − bias(w)))²⌉ (white noise averages down as
+/// 1/√N), searched over (w_hi/10⁴, w_hi]. `amplitude_limit` is the largest amplitude the bench
+/// allows (None: the area is kept, amplitude = area/width, and the noise share does not depend
+/// on the width).
 #[allow(clippy::too_many_arguments)]
 pub fn fewest_averages(
     est: &Estimator,
@@ -111,47 +111,38 @@ pub fn fewest_averages(
     w_hi: f64,
     budget: f64,
 ) -> Option<(f64, u64)> {
-    let g = |w: f64| {
+    let averages = |w: f64| -> Option<u64> {
         let p = tied_pulse(1.0, w, settings.edge_ratio);
         let bias = est.metric(&p, settings.metric, run.max(2.0 * p.end()));
         if bias >= budget {
-            return f64::INFINITY;
+            return None;
         }
         let amp = amplitude_limit.map_or(area / w, |a| a.min(area / w));
-        noise_rms / (amp * w * est.normaliser()) / (budget - bias)
+        let g = noise_rms / (amp * w * est.normaliser()) / (budget - bias);
+        let n = (g * g).ceil().max(1.0);
+        (n < u64::MAX as f64).then_some(n as u64)
     };
     let n = 80;
     let w_lo = w_hi / 1e4;
     let ratio = (w_hi / w_lo).powf(1.0 / (n - 1) as f64);
     let ws: Vec<f64> = (0..n).map(|k| w_lo * ratio.powi(k as i32)).collect();
-    let gs: Vec<f64> = ws.iter().map(|&w| g(w)).collect();
-    let (k_min, g_min) = gs
-        .iter()
-        .enumerate()
-        .min_by(|a, b| a.1.total_cmp(b.1))
-        .map(|(k, &v)| (k, v))?;
-    if !g_min.is_finite() {
-        return None;
-    }
-    let limit = 1.02 * g_min;
-    let k = (k_min..n)
-        .take_while(|&k| gs[k] <= limit)
-        .last()
-        .unwrap_or(k_min);
+    let ns: Vec<Option<u64>> = ws.iter().map(|&w| averages(w)).collect();
+    let fewest = ns.iter().flatten().copied().min()?;
+    // The widest sampled width with that count, then bisect towards the next one.
+    let k = (0..n).rev().find(|&k| ns[k] == Some(fewest))?;
     let mut lo = ws[k];
     if k + 1 < n {
         let mut hi = ws[k + 1];
         for _ in 0..50 {
             let mid = (lo * hi).sqrt();
-            if g(mid) <= limit {
+            if averages(mid) == Some(fewest) {
                 lo = mid;
             } else {
                 hi = mid;
             }
         }
     }
-    let averages = (g(lo).powi(2)).ceil().max(1.0) as u64;
-    Some((lo, averages))
+    Some((lo, fewest))
 }
 
 /// The noise step's figures.
@@ -195,7 +186,10 @@ pub fn assess(
     }
     let s = inp.plan;
     let est = &prep.estimator;
-    let w_hi = prep.tau_plan / s.min_width_ratio;
+    let cap = crate::plan::width_cap(prep, s).width(prep.tau_plan);
+    let w_hi = (prep.tau_plan / crate::plan::RULE_MAX_WIDTH_RATIO)
+        .max(4.0 * pulse.width_50())
+        .min(cap);
     let w_lo = (w_hi / 1e4).min(pulse.width_50() / 10.0);
     let curves = noise_curves(est, s, pulse.amplitude, sigma, prep.run, w_lo, w_hi);
     let bias_now = estimate.metric(s.metric);

@@ -130,10 +130,16 @@ pub struct BenchInput<'a> {
     pub drive: Signal,
     /// `[plan]`.
     pub plan: &'a PlanSettings,
+    /// How the area is chosen (a fixed level limits the amplitude like a generator would).
+    pub area: crate::plan::AreaRule,
     /// `[generator]`, `[capture]`, `[limits]`.
     pub bench: &'a Bench,
     /// Whether the residues (and so the size of h) are known.
     pub residues_known: bool,
+    /// For a circuit driven through a source resistance: the transfer from the source's
+    /// open-circuit voltage to the circuit's input terminals (None: the source drives the
+    /// terminals directly).
+    pub terminal: Option<&'a crate::network::Network>,
 }
 
 #[cfg(test)]

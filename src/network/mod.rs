@@ -221,6 +221,19 @@ impl Network {
         Ok(net)
     }
 
+    /// A network function without poles: a constant gain `d` (a resistive divider, say).
+    pub fn constant(d: f64) -> Network {
+        Network {
+            form: Form::Netlist,
+            modes: Vec::new(),
+            direct: d,
+            improper: Vec::new(),
+            zeros: Vec::new(),
+            residues_known: true,
+            h0_ivt: 0.0,
+        }
+    }
+
     /// h(0⁺) from the modes: Σ of the first-order residues (terms t^(k−1) vanish at 0 for k ≥ 2).
     ///
     /// When the initial-value theorem gives exactly zero (relative degree ≥ 2) and the sum
@@ -235,6 +248,15 @@ impl Network {
         } else {
             sum
         }
+    }
+
+    /// True when h(0⁺) is zero to the accuracy of the modal sum: exactly zero, or within 1e-9
+    /// of the modes' summed size near the origin (a low-pass of relative degree ≥ 2, a ladder).
+    /// Readings at 0⁺ then have nothing to be compared with.
+    pub fn h0_negligible(&self) -> bool {
+        let h0 = self.h0_plus();
+        let scale: f64 = self.modes.iter().map(Mode::size).sum();
+        h0 == 0.0 || h0.abs() <= 1e-9 * scale
     }
 
     /// Fastest time scale 1/max|p| (poles at the origin excluded).

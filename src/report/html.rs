@@ -8,10 +8,9 @@ use crate::estimate::{ErrorEstimate, NormalisedBy};
 use crate::network::{Network, NetworkSpec};
 use crate::notice::Warning;
 use crate::pipeline::PlanOutcome;
-use crate::plan::Target;
 use crate::pulse::Trapezoid;
 use crate::scenario::Scenario;
-use crate::units::{Dim, Signal, eng, percent, percent_unsigned, plain};
+use crate::units::{Dim, Signal, eng, percent_unsigned, plain};
 use num_complex::Complex64;
 use std::fmt::Write as _;
 
@@ -229,16 +228,13 @@ fn modes_table(s: &mut String, net: &Network, significant: &[bool]) {
 fn bench_html(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
     let b = &out.bench;
     let _ = writeln!(s, "<section><h2>On the bench</h2><table><tbody>");
-    for (label, line) in super::tables::bench_lines(sc, b) {
+    let (lines, notes) = super::tables::bench_summary(sc, b, &out.notes);
+    for (label, line) in lines {
         text_row(s, label, &[line]);
     }
     let _ = writeln!(s, "</tbody></table>");
-    for n in &b.notes {
-        let _ = writeln!(
-            s,
-            "<p class=\"note\">{}</p>",
-            escape(&words::note_text(n, sc.drive))
-        );
+    for n in notes {
+        let _ = writeln!(s, "<p class=\"note\">{}</p>", escape(&n));
     }
     let _ = writeln!(s, "</section>");
 }
@@ -392,8 +388,11 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
              <td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
             escape(&num(e.t0.reading)),
             escape(&num(e.t0.ideal)),
-            escape(&percent(e.t0.rel)),
-            escape(&percent(e.first_order.t0_rel))
+            escape(&words::relative(e.t0.rel, e.floor)),
+            escape(&words::first_order_text(
+                e.first_order.t0_rel,
+                e.first_order.t0_floor
+            ))
         );
         let _ = writeln!(
             s,
@@ -401,8 +400,11 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
              <td class=\"num\">{}</td><td class=\"num\">{} (½σ²h″)</td></tr>",
             escape(&num(e.t0_aligned.reading)),
             escape(&num(e.t0_aligned.ideal)),
-            escape(&percent(e.t0_aligned.rel)),
-            escape(&percent(e.first_order.t0_aligned_rel))
+            escape(&words::relative(e.t0_aligned.rel, e.floor)),
+            escape(&words::first_order_text(
+                e.first_order.t0_aligned_rel,
+                e.first_order.t0_aligned_floor
+            ))
         );
     } else {
         let _ = writeln!(
@@ -421,8 +423,8 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
                 "<tr><th>{}</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
                  <td class=\"num\">{}</td></tr>",
                 escape(&eng(m.time_constant, Dim::Time)),
-                escape(&percent(m.t0_rel)),
-                escape(&percent(m.t0_aligned_rel)),
+                escape(&words::relative(m.t0_rel, m.estimate.floor)),
+                escape(&words::relative(m.t0_aligned_rel, m.estimate.floor)),
                 escape(&percent_unsigned(m.window_max_rel)),
                 escape(&percent_unsigned(m.window_rms_rel))
             );
@@ -431,8 +433,8 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
             s,
             "<tr><th>worst mode</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
              <td class=\"num\">{}</td></tr>",
-            escape(&percent(e.t0.rel)),
-            escape(&percent(e.t0_aligned.rel)),
+            escape(&words::relative(e.t0.rel, e.floor)),
+            escape(&words::relative(e.t0_aligned.rel, e.floor)),
             escape(&percent_unsigned(e.window.max_rel)),
             escape(&percent_unsigned(e.window.rms_rel))
         );
@@ -451,40 +453,7 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
 }
 
 fn budget_text(sc: &Scenario, out: &PlanOutcome) -> String {
-    let metric = sc.plan.metric.name();
-    let budget = percent_unsigned(sc.plan.target_error.unwrap_or(0.0));
-    let widening = out.budget.as_ref().and_then(|b| b.widening).unwrap_or(1.0);
-    match out.budget.as_ref().map(|b| &b.target) {
-        Some(Target::Met { width, value }) => format!(
-            "Budget {budget} on the {metric} error: the widest pulse within it is {} wide (error {}), \
-             {:.2}× the rule-of-thumb width.",
-            eng(*width, Dim::Time),
-            percent_unsigned(*value),
-            widening
-        ),
-        Some(Target::Capped {
-            width,
-            value,
-            ratio,
-        }) => format!(
-            "Budget {budget} on the {metric} error would allow a wider pulse; the width is capped at \
-             (fastest significant time scale)/{} = {} (error {}), {:.2}× the rule-of-thumb width.",
-            ratio,
-            eng(*width, Dim::Time),
-            percent_unsigned(*value),
-            widening
-        ),
-        Some(Target::Unreachable { width, value }) => format!(
-            "Budget {budget} on the {metric} error cannot be met: even {} wide gives {}. The \
-             rule-of-thumb pulse is shown.",
-            eng(*width, Dim::Time),
-            percent_unsigned(*value)
-        ),
-        None => {
-            "No error budget given ([plan] target_error): the rule-of-thumb pulse is recommended."
-                .into()
-        }
-    }
+    words::budget_text(out.budget.as_ref(), &sc.plan)
 }
 
 fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
@@ -619,7 +588,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         } else {
             "current"
         },
-        escape(&words::with_unit(sc.area, sc.drive.area_unit())),
+        escape(&words::area_rule_text(&sc.area, sc.drive)),
         escape(&budget_text(sc, out))
     );
     let _ = writeln!(s, "</section>");
@@ -767,8 +736,8 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         let _ = writeln!(
             s,
             "<p class=\"note\">For comparison, the rule-of-thumb pulse: raw {}, aligned {}, window max {}.</p>",
-            escape(&percent(r.t0.rel)),
-            escape(&percent(r.t0_aligned.rel)),
+            escape(&words::relative(r.t0.rel, r.floor)),
+            escape(&words::relative(r.t0_aligned.rel, r.floor)),
             escape(&percent_unsigned(r.window.max_rel))
         );
     }

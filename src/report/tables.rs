@@ -31,7 +31,44 @@ pub(crate) fn mode_cells(
 }
 
 /// The bench summary as (label, sentence) pairs, shared by the text and HTML reports.
-pub(crate) fn bench_lines(
+/// The bench summary as (label, sentence) pairs plus the notes still to print, shared by the
+/// text and HTML reports. The noise notes (the bench's and the plan's choice of width) are
+/// merged into one "noise" line: the width the plan uses, why, and the others as context.
+pub(crate) fn bench_summary(
+    sc: &crate::scenario::Scenario,
+    b: &crate::bench::BenchPlan,
+    plan_notes: &[crate::notice::Note],
+) -> (Vec<(&'static str, String)>, Vec<String>) {
+    use crate::notice::Note;
+    let mut lines = bench_lines(sc, b);
+    let mut rest = Vec::new();
+    let mut at_pulse = None;
+    for n in &b.notes {
+        match n {
+            Note::NoiseAtPulse { .. } => at_pulse = Some(n),
+            // The two records have their own line.
+            Note::TwoRecords { .. } => {}
+            other => rest.push(super::words::note_text(other, sc.drive)),
+        }
+    }
+    let fewest = plan_notes
+        .iter()
+        .find(|n| matches!(n, Note::FewestAverages { .. }));
+    if let Some(Note::NoiseAtPulse {
+        noise,
+        bias,
+        best_width,
+    }) = at_pulse
+    {
+        lines.push((
+            "noise",
+            super::words::noise_text(b, *noise, *bias, *best_width, fewest),
+        ));
+    }
+    (lines, rest)
+}
+
+fn bench_lines(
     sc: &crate::scenario::Scenario,
     b: &crate::bench::BenchPlan,
 ) -> Vec<(&'static str, String)> {
@@ -58,12 +95,20 @@ pub(crate) fn bench_lines(
             eng_plain(a.scaling.read_factor, 5)
         ),
     ));
+    let u = super::words::Units::of(sc.drive, sc.output);
+    let input = match a.peak_terminal {
+        Some(t) => format!(
+            "at the input terminals {} (source open-circuit level {})",
+            eng(t, dim),
+            eng(a.peak_input, dim)
+        ),
+        None => format!("input {}", eng(a.peak_input, dim)),
+    };
     lines.push((
         "peaks",
         format!(
-            "input {}, predicted output {}",
-            eng(a.peak_input, dim),
-            eng_plain(a.peak_output, 5)
+            "{input}, predicted output {} (its largest excursion)",
+            u.output_value(a.output_extreme)
         ),
     ));
     lines.push((
@@ -104,4 +149,28 @@ pub(crate) fn bench_lines(
         ));
     }
     lines
+}
+
+/// Where the pulse's level applies: at the circuit's input, or, for a circuit driven through a
+/// source resistance, the source's open-circuit level behind it.
+pub(crate) fn pulse_place(sc: &crate::scenario::Scenario) -> String {
+    match source_resistance(sc) {
+        Some(r) => format!(
+            "the source's open-circuit level, behind its {} source resistance",
+            eng(r, Dim::Resistance)
+        ),
+        None => "at the circuit's input".into(),
+    }
+}
+
+/// The source resistance between a voltage source and the circuit's input terminals.
+pub(crate) fn source_resistance(sc: &crate::scenario::Scenario) -> Option<f64> {
+    match &sc.network_spec {
+        crate::network::NetworkSpec::Netlist(n)
+            if n.stimulus == crate::netlist::Stimulus::Voltage =>
+        {
+            n.source_resistance.filter(|&r| r > 0.0)
+        }
+        _ => None,
+    }
 }

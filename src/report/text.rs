@@ -1,44 +1,35 @@
 //! The human-readable text report.
 
-use super::words::{self, Context, with_unit};
+use super::words::{self, Context, Units, with_unit};
 use crate::bench::BenchPlan;
 use crate::estimate::Cursor;
 use crate::estimate::ErrorEstimate;
 use crate::network::Network;
-use crate::notice::Warning;
+use crate::notice::{Note, Severity, Warning};
 use crate::pipeline::{AssessOutcome, PlanOutcome};
-use crate::plan::{Prepared, Target};
+use crate::plan::Prepared;
 use crate::pulse::Trapezoid;
 use crate::scenario::Scenario;
-use crate::units::{Dim, eng, eng_number, percent, percent_unsigned, plain};
+use crate::units::{Dim, eng, percent_unsigned, plain};
 use std::fmt::Write as _;
 
 fn pole_text(z: num_complex::Complex64) -> String {
-    let re = eng_number(z.re, 5);
-    if z.im == 0.0 {
-        re.trim_end().to_string()
-    } else {
-        let im = eng_number(z.im.abs(), 5);
-        format!(
-            "{} {} j{}",
-            re.trim_end(),
-            if z.im < 0.0 { "−" } else { "+" },
-            im.trim_end()
-        )
-    }
-}
-
-fn value_text(v: f64) -> String {
-    crate::units::eng_plain(v, 5)
+    words::complex_text(z)
 }
 
 /// The network section of the text report.
-fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
+fn network_text(s: &mut String, net: &Network, prep: &Prepared, u: &Units) {
     let _ = writeln!(s, "Network ({}, order {})", net.form.name(), net.order());
     let _ = writeln!(
         s,
         "  {:<26} {:>4}  {:<30} {:>10} {:>12} {:>8} {:>9}",
-        "pole [rad/s]", "m", "residues r1, r2… [1/s^k]", "τ", "|p|", "ζ", "share"
+        "pole [rad/s]",
+        "m",
+        format!("residues r1, r2… [{}]", u.residue),
+        "τ",
+        "|p|",
+        "ζ",
+        "share"
     );
     // Long tables keep the significant modes and summarise the rest.
     let long = net.modes.len() > 24;
@@ -112,14 +103,14 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared) {
         }
         let _ = writeln!(
             s,
-            "  h(0⁺)                  {} /s from the modes, {} /s by the initial-value theorem",
-            value_text(net.h0_plus()),
-            value_text(net.h0_ivt)
+            "  h(0⁺)                  {} from the modes, {} by the initial-value theorem",
+            u.h_value(net.h0_plus()),
+            u.h_value(net.h0_ivt)
         );
         let _ = writeln!(
             s,
-            "  peak |h|               {} /s at {}",
-            value_text(prep.shape.peak),
+            "  peak |h|               {} at {}",
+            u.h_value(prep.shape.peak),
             eng(prep.shape.t_peak, Dim::Time)
         );
     } else {
@@ -195,16 +186,7 @@ fn pulse_text(s: &mut String, heading: &str, p: &Trapezoid, run: f64, sc: &Scena
 }
 
 /// A signed relative error, or "≈ 0" when it is below ten times the rounding floor.
-fn rel_text(v: f64, floor: f64) -> String {
-    let lim = 10.0 * floor;
-    if v.abs() < lim {
-        format!("≈ 0 (below {:.0e} %)", lim * 100.0)
-    } else {
-        percent(v)
-    }
-}
-
-fn error_text(s: &mut String, e: &ErrorEstimate) {
+fn error_text(s: &mut String, e: &ErrorEstimate, u: &Units) {
     let norm = match e.normalised_by {
         crate::estimate::NormalisedBy::H0Plus => "|h(0⁺)|",
         crate::estimate::NormalisedBy::Peak => "peak |h| (h(0⁺) = 0)",
@@ -214,18 +196,18 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
         let _ = writeln!(s, "Predicted error (exact; relative to {norm})");
         let _ = writeln!(
             s,
-            "  at t = 0⁺, raw      reading {} /s vs h(0⁺) {} /s: {}   (first-order estimate {})",
-            value_text(e.t0.reading),
-            value_text(e.t0.ideal),
-            rel_text(e.t0.rel, e.floor),
-            rel_text(e.first_order.t0_rel, e.first_order.t0_floor)
+            "  at t = 0⁺, raw      reading {} vs h(0⁺) {}: {}   (first-order estimate {})",
+            u.h_value(e.t0.reading),
+            u.h_value(e.t0.ideal),
+            words::relative(e.t0.rel, e.floor),
+            words::first_order_text(e.first_order.t0_rel, e.first_order.t0_floor)
         );
         let _ = writeln!(
             s,
-            "  at t = 0⁺, aligned  vs h(end − centroid) {} /s: {}   (first-order estimate ½σ²h″: {})",
-            value_text(e.t0_aligned.ideal),
-            rel_text(e.t0_aligned.rel, e.floor),
-            rel_text(e.first_order.t0_aligned_rel, e.first_order.t0_aligned_floor)
+            "  at t = 0⁺, aligned  vs h(end − centroid) {}: {}   (first-order estimate ½σ²h″: {})",
+            u.h_value(e.t0_aligned.ideal),
+            words::relative(e.t0_aligned.rel, e.floor),
+            words::first_order_text(e.first_order.t0_aligned_rel, e.first_order.t0_aligned_floor)
         );
     } else {
         let _ = writeln!(
@@ -242,39 +224,40 @@ fn error_text(s: &mut String, e: &ErrorEstimate) {
                 s,
                 "  {:>10}  {:>14}  {:>14}  {:>14}",
                 eng(m.time_constant, Dim::Time),
-                percent(m.t0_rel),
-                percent(m.t0_aligned_rel),
+                words::relative(m.t0_rel, m.estimate.floor),
+                words::relative(m.t0_aligned_rel, m.estimate.floor),
                 percent_unsigned(m.window_max_rel)
             );
         }
         let _ = writeln!(
             s,
             "  worst mode: raw {}, aligned {}",
-            percent(e.t0.rel),
-            percent(e.t0_aligned.rel)
+            words::relative(e.t0.rel, e.floor),
+            words::relative(e.t0_aligned.rel, e.floor)
         );
     }
     let _ = writeln!(
         s,
         "  over the window     max {} (at {}), RMS {}   [y(t)/area vs h(t − centroid), end ≤ t ≤ run]",
-        percent_unsigned(e.window.max_rel),
+        words::magnitude(e.window.max_rel, e.floor),
         eng(e.window.t_max, Dim::Time),
-        percent_unsigned(e.window.rms_rel)
+        words::magnitude(e.window.rms_rel, e.floor)
     );
 }
 
-fn bench_text(s: &mut String, b: &BenchPlan, sc: &Scenario) {
+fn bench_text(s: &mut String, b: &BenchPlan, sc: &Scenario, plan_notes: &[Note]) {
     let _ = writeln!(s, "On the bench");
-    for (label, line) in super::tables::bench_lines(sc, b) {
+    let (lines, notes) = super::tables::bench_summary(sc, b, plan_notes);
+    for (label, line) in lines {
         let _ = writeln!(s, "  {label:<18} {line}");
     }
-    for n in &b.notes {
-        let _ = writeln!(s, "  note: {}", words::note_text(n, sc.drive));
+    for n in notes {
+        let _ = writeln!(s, "  note: {n}");
     }
     let _ = writeln!(s);
 }
 
-fn tolerance_text(s: &mut String, out: &PlanOutcome) {
+fn tolerance_text(s: &mut String, out: &PlanOutcome, u: &Units) {
     let Some(t) = &out.tolerance else { return };
     let how = match t.method {
         crate::tolerance::Method::Corners { count } => format!("{count} corners"),
@@ -297,11 +280,11 @@ fn tolerance_text(s: &mut String, out: &PlanOutcome) {
     if t.h0.nominal != 0.0 {
         let _ = writeln!(
             s,
-            "  {:<28} nominal {:>12}   range {} … {}  (/s)",
+            "  {:<28} nominal {:>12}   range {} … {}",
             "h(0⁺)",
-            value_text(t.h0.nominal),
-            value_text(t.h0.min),
-            value_text(t.h0.max)
+            u.h_value(t.h0.nominal),
+            u.h_value(t.h0.min),
+            u.h_value(t.h0.max)
         );
     }
     if t.sensitivities.is_empty() {
@@ -318,12 +301,12 @@ fn tolerance_text(s: &mut String, out: &PlanOutcome) {
     for sens in t.sensitivities.iter().take(6) {
         let _ = writeln!(
             s,
-            "    {:<10} ±{:<8} τ_fast {:+.3}  τ_slow {:+.3}  h(0⁺) {:+.3}  influence {}",
+            "    {:<10} ±{:<8} τ_fast {:>6}  τ_slow {:>6}  h(0⁺) {:>6}  influence {}",
             sens.part,
             percent_unsigned(sens.tolerance),
-            sens.tau_fast,
-            sens.tau_slow,
-            sens.h0,
+            words::signed3(sens.tau_fast),
+            words::signed3(sens.tau_slow),
+            words::signed3(sens.h0),
             percent_unsigned(sens.influence())
         );
     }
@@ -340,37 +323,46 @@ fn tolerance_text(s: &mut String, out: &PlanOutcome) {
     let _ = writeln!(s);
 }
 
-fn cursors_text(s: &mut String, cs: &[Cursor]) {
+fn cursors_text(s: &mut String, cs: &[Cursor], u: &Units) {
     if cs.is_empty() {
         return;
     }
-    let _ = writeln!(s, "Cursors");
+    let _ = writeln!(s, "Cursors (h and y/area in {})", u.h);
     let _ = writeln!(
         s,
-        "  {:>12}  {:>14}  {:>14}  {:>14}  {:>14}",
-        "t", "ideal h(t)", "y(t)/area", "difference", "vs h(t − c)"
+        "  {:>12}  {:>16}  {:>16}  {:>16}  {:>16}",
+        "t", "ideal h(t)", "y(t)/area", "y/area − h(t)", "y/area − h(t − c)"
     );
     for c in cs {
         let _ = writeln!(
             s,
-            "  {:>12}  {:>14}  {:>14}  {:>14}  {:>14}",
+            "  {:>12}  {:>16}  {:>16}  {:>16}  {:>16}",
             eng(c.t, Dim::Time),
-            value_text(c.ideal),
-            value_text(c.predicted),
-            value_text(c.predicted - c.ideal),
-            value_text(c.predicted - c.ideal_aligned)
+            u.h_value(c.ideal),
+            u.h_value(c.predicted),
+            u.h_value(c.difference),
+            u.h_value(c.difference_aligned)
         );
     }
     let _ = writeln!(s);
 }
 
 fn warnings_text(s: &mut String, ws: &[Warning], cx: &Context) {
-    if ws.is_empty() {
+    let (act, info): (Vec<&Warning>, Vec<&Warning>) =
+        ws.iter().partition(|w| w.severity() == Severity::Act);
+    if !info.is_empty() {
+        let _ = writeln!(s, "Notes");
+        for w in info {
+            let _ = writeln!(s, "  [{}] {}", w.code(), words::warning_text(w, cx));
+        }
+        let _ = writeln!(s);
+    }
+    if act.is_empty() {
         let _ = writeln!(s, "No warnings.");
         return;
     }
     let _ = writeln!(s, "Warnings");
-    for w in ws {
+    for w in act {
         let _ = writeln!(s, "  [{}] {}", w.code(), words::warning_text(w, cx));
     }
 }
@@ -391,8 +383,9 @@ fn header(s: &mut String, sc: &Scenario, verb: &str) {
 /// Text report for `plan`.
 pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
     let mut s = String::new();
+    let u = Units::of(sc.drive, sc.output);
     header(&mut s, sc, "plan");
-    network_text(&mut s, &sc.network, &out.prep);
+    network_text(&mut s, &sc.network, &out.prep, &u);
     let _ = writeln!(s);
     let rule_heading = format!(
         "Rule of thumb (common practice, no source): width = fastest significant time scale/{}, edges = width/{}",
@@ -402,34 +395,34 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
     let _ = writeln!(
         s,
         "  errors: raw at 0⁺ {}, aligned {}, window max {}",
-        percent(out.rule_estimate.t0.rel),
-        percent(out.rule_estimate.t0_aligned.rel),
-        percent_unsigned(out.rule_estimate.window.max_rel)
+        words::relative(out.rule_estimate.t0.rel, out.rule_estimate.floor),
+        words::relative(out.rule_estimate.t0_aligned.rel, out.rule_estimate.floor),
+        words::magnitude(out.rule_estimate.window.max_rel, out.rule_estimate.floor)
     );
     let _ = writeln!(s);
     budget_text(&mut s, sc, out);
     let _ = writeln!(s);
-    pulse_text(
-        &mut s,
-        "Recommended pulse (at the circuit's input)",
-        &out.pulse,
-        out.prep.run,
-        sc,
-    );
+    let heading = format!("Recommended pulse ({})", super::tables::pulse_place(sc));
+    pulse_text(&mut s, &heading, &out.pulse, out.prep.run, sc);
     let basis = words::run_basis_text(&out.prep.run_basis);
     let _ = writeln!(s, "  run length basis: {basis}");
     let _ = writeln!(s);
-    bench_text(&mut s, &out.bench, sc);
-    tolerance_text(&mut s, out);
-    for n in &out.notes {
+    bench_text(&mut s, &out.bench, sc, &out.notes);
+    tolerance_text(&mut s, out, &u);
+    let plan_notes: Vec<&Note> = out
+        .notes
+        .iter()
+        .filter(|n| !matches!(n, Note::FewestAverages { .. }))
+        .collect();
+    for n in &plan_notes {
         let _ = writeln!(s, "Note: {}", words::note_text(n, sc.drive));
     }
-    if !out.notes.is_empty() {
+    if !plan_notes.is_empty() {
         let _ = writeln!(s);
     }
-    error_text(&mut s, &out.estimate);
+    error_text(&mut s, &out.estimate, &u);
     let _ = writeln!(s);
-    cursors_text(&mut s, cs);
+    cursors_text(&mut s, cs, &u);
     let cx = Context {
         drive: sc.drive,
         run_basis: &basis,
@@ -439,63 +432,26 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
 }
 
 fn budget_text(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
-    let widening = out.budget.as_ref().and_then(|b| b.widening).unwrap_or(1.0);
-    match out.budget.as_ref().map(|b| &b.target) {
-        Some(Target::Met { width, value }) => {
-            let _ = writeln!(
-                s,
-                "Error budget: {} on the {} error → widest width {} (error {}), {:.2}× the rule-of-thumb width",
-                percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
-                sc.plan.metric.name(),
-                eng(*width, Dim::Time),
-                percent_unsigned(*value),
-                widening
-            );
-        }
-        Some(Target::Capped {
-            width,
-            value,
-            ratio,
-        }) => {
-            let _ = writeln!(
-                s,
-                "Error budget: {} on the {} error would allow a wider pulse; capped at (fastest significant time scale)/{} = {} \
-                 (error {}), {:.2}× the rule-of-thumb width",
-                percent_unsigned(sc.plan.target_error.unwrap_or(0.0)),
-                sc.plan.metric.name(),
-                ratio,
-                eng(*width, Dim::Time),
-                percent_unsigned(*value),
-                widening
-            );
-        }
-        Some(Target::Unreachable { .. }) => {
-            let _ = writeln!(
-                s,
-                "Error budget cannot be met (see warnings); the rule-of-thumb pulse stands."
-            );
-        }
-        None => {
-            let _ = writeln!(
-                s,
-                "No error budget given ([plan] target_error): the rule-of-thumb pulse is recommended."
-            );
-        }
-    }
+    let _ = writeln!(s, "{}", words::budget_text(out.budget.as_ref(), &sc.plan));
 }
 
 /// Text report for `assess`.
 pub fn assess_text(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> String {
     let mut s = String::new();
+    let u = Units::of(sc.drive, sc.output);
     header(&mut s, sc, "assess");
-    network_text(&mut s, &sc.network, &out.prep);
+    network_text(&mut s, &sc.network, &out.prep, &u);
     let _ = writeln!(s);
-    pulse_text(&mut s, "Pulse assessed ([pulse])", &out.pulse, out.run, sc);
+    let heading = format!(
+        "Pulse assessed ([pulse], {})",
+        super::tables::pulse_place(sc)
+    );
+    pulse_text(&mut s, &heading, &out.pulse, out.run, sc);
     let _ = writeln!(s);
-    bench_text(&mut s, &out.bench, sc);
-    error_text(&mut s, &out.estimate);
+    bench_text(&mut s, &out.bench, sc, &[]);
+    error_text(&mut s, &out.estimate, &u);
     let _ = writeln!(s);
-    cursors_text(&mut s, cs);
+    cursors_text(&mut s, cs, &u);
     let basis = words::run_basis_text(&out.prep.run_basis);
     let cx = Context {
         drive: sc.drive,

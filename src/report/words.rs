@@ -243,10 +243,13 @@ fn bench_warning(w: &Warning, cx: &Context) -> String {
             points,
             interval,
             record,
+            memory,
         } => format!(
-            "{points} points are needed to sample at {} over {}, more than the memory holds: take two records (see the capture plan)",
+            "{points} points are needed to sample every {} over {}, more than the {} points of memory, and two records \
+             cannot resolve every mode either: raise [capture] max_points, or shorten the run",
             eng(*interval, Dim::Time),
-            eng(*record, Dim::Time)
+            eng(*record, Dim::Time),
+            crate::units::eng_plain(*memory, 4)
         ),
         Warning::CaptureUndersampled { samples, width } => format!(
             "at the highest sample rate only {samples:.1} samples fall across the {} pulse",
@@ -303,6 +306,24 @@ pub fn note_text(n: &Note, drive: Signal) -> String {
             eng(*best_width, Dim::Time)
         ),
         Note::NoiseNeedsResidues => "noise not assessed: the residues (and so the size of h) are unknown for a network given by time constants".into(),
+        Note::MemoryAssumed { points } => format!(
+            "no [capture] max_points given: a record memory of {} points is assumed",
+            crate::units::eng_plain(*points, 4)
+        ),
+        Note::TwoRecords {
+            needed,
+            memory,
+            fine_interval,
+            fine_length,
+            coarse_interval,
+        } => format!(
+            "one record would need {needed} points, more than the {} of memory: take two records, one every {} for {} \
+             (the fast part) and one every {} over the whole record",
+            crate::units::eng_plain(*memory, 4),
+            eng(*fine_interval, Dim::Time),
+            eng(*fine_length, Dim::Time),
+            eng(*coarse_interval, Dim::Time)
+        ),
         Note::FewestAverages { width, bias_width } => format!(
             "with the output noise of [capture], the width needing the fewest averages for the budget is {} \
              (the bias alone would allow {})",
@@ -334,5 +355,198 @@ pub fn run_basis_text(b: &crate::plan::RunBasis) -> String {
             "{multiple} × slowest time scale 1/|p| ({}); no mode decays",
             eng(scale, Dim::Time)
         ),
+    }
+}
+
+/// The cap that stopped a budget search, worded with the setting that caused it.
+pub fn cap_text(cap: &crate::plan::Cap, width: f64) -> String {
+    match cap {
+        crate::plan::Cap::MinWidthRatio { ratio } => format!(
+            "capped by [plan] min_width_ratio = {ratio} at (fastest significant time scale)/{ratio} = {}",
+            eng(width, Dim::Time)
+        ),
+        crate::plan::Cap::RunLength { run } => format!(
+            "capped at the run length {} (a pulse no longer than the record it is read in)",
+            eng(*run, Dim::Time)
+        ),
+    }
+}
+
+/// The budget search in one sentence.
+pub fn budget_text(budget: Option<&crate::plan::Budget>, s: &crate::plan::PlanSettings) -> String {
+    use crate::plan::Target;
+    let Some(b) = budget else {
+        return "No error budget given ([plan] target_error): the rule-of-thumb pulse is recommended."
+            .into();
+    };
+    let head = format!(
+        "Error budget {} on the {} error",
+        percent_unsigned(s.target_error.unwrap_or(0.0)),
+        s.metric.name()
+    );
+    let widening = b.widening.unwrap_or(1.0);
+    match &b.target {
+        Target::Met { width, value } => format!(
+            "{head}: the widest pulse within it is {} wide (error {}), {widening:.2}× the rule-of-thumb width.",
+            eng(*width, Dim::Time),
+            percent_unsigned(*value)
+        ),
+        Target::Capped { width, value, cap } => format!(
+            "{head} would allow a wider pulse; the width is {} (error {}), {widening:.2}× the rule-of-thumb width.",
+            cap_text(cap, *width),
+            percent_unsigned(*value)
+        ),
+        Target::Unreachable { width, value } => format!(
+            "{head} cannot be met: even {} wide gives {}. The rule-of-thumb pulse is shown.",
+            eng(*width, Dim::Time),
+            percent_unsigned(*value)
+        ),
+    }
+}
+
+/// A signed relative error, or "0" when it is within ten times the rounding level of the
+/// computation (the figure is zero to the accuracy it has).
+pub fn relative(v: f64, floor: f64) -> String {
+    if v.abs() <= 10.0 * floor {
+        "0".into()
+    } else {
+        crate::units::percent(v)
+    }
+}
+
+/// The same for a magnitude (window maximum, RMS).
+pub fn magnitude(v: f64, floor: f64) -> String {
+    if v.abs() <= 10.0 * floor {
+        "0".into()
+    } else {
+        percent_unsigned(v)
+    }
+}
+
+/// Why a first-order estimate is not shown.
+pub const FIRST_ORDER_NA: &str = "n/a: the terms it leaves out exceed 10 % of it (the pulse is not short against the local time scale of h)";
+
+/// A first-order estimate, or "n/a" with the reason outside its validity.
+pub fn first_order_text(v: Option<f64>, floor: f64) -> String {
+    match v {
+        Some(v) => relative(v, floor),
+        None => FIRST_ORDER_NA.into(),
+    }
+}
+
+/// The noise line: the width the plan uses and why, with the other widths as labelled context.
+pub fn noise_text(
+    b: &crate::bench::BenchPlan,
+    noise: f64,
+    bias: f64,
+    best_width: f64,
+    fewest: Option<&Note>,
+) -> String {
+    let width = eng(b.pulse.width_50(), Dim::Time);
+    let budget = percent_unsigned(b.budget);
+    let avg = match b.noise.averages {
+        Some(1) => format!("1 acquisition meets the {budget} budget"),
+        Some(n) => format!("{n} averages meet the {budget} budget"),
+        None => format!("no number of averages meets the {budget} budget"),
+    };
+    let why = match fewest {
+        Some(Note::FewestAverages { bias_width, .. }) => format!(
+            "width {width} is used: the widest that needs the fewest averages (the bias alone would allow {})",
+            eng(*bias_width, Dim::Time)
+        ),
+        _ => format!(
+            "width {width} is used: the widest the bias budget allows, and no narrower pulse needs fewer averages"
+        ),
+    };
+    format!(
+        "{why}; per acquisition the noise is {} of the reading and the bias {}: {avg}. Context: at this amplitude, \
+         bias + noise in one acquisition would be least at {}",
+        percent_unsigned(noise),
+        percent_unsigned(bias),
+        eng(best_width, Dim::Time)
+    )
+}
+
+/// How the area was chosen, in words.
+pub fn area_rule_text(rule: &crate::plan::AreaRule, drive: Signal) -> String {
+    match *rule {
+        crate::plan::AreaRule::Given { area } => {
+            format!(
+                "{} as given ([drive] area)",
+                with_unit(area, drive.area_unit())
+            )
+        }
+        crate::plan::AreaRule::FromLevel { level } => format!(
+            "planned from the default generator level {} × the width (no [drive] area given; write one to fix the area)",
+            eng(level, drive.dim())
+        ),
+    }
+}
+
+/// The units every figure of h carries, derived from the drive's and the output's kinds.
+#[derive(Debug, Clone)]
+pub struct Units {
+    /// Drive kind.
+    pub drive: Signal,
+    /// Output kind.
+    pub output: Signal,
+    /// Unit of h(t): "/s", "V/(A·s)", "A/(V·s)".
+    pub h: String,
+    /// Unit of the k-th Laurent coefficient, written with k: "1/s^k", "V/(A·s^k)".
+    pub residue: String,
+}
+
+impl Units {
+    /// The units for a scenario's drive and output.
+    pub fn of(drive: Signal, output: Signal) -> Units {
+        let residue = if drive == output {
+            "1/s^k".to_string()
+        } else {
+            format!("{}/({}·s^k)", output.symbol(), drive.symbol())
+        };
+        Units {
+            drive,
+            output,
+            h: crate::units::h_unit(drive, output),
+            residue,
+        }
+    }
+
+    /// A value of h with its unit: "25.021 k/s", "-157.5 /s", "3.2 mV/(A·s)".
+    pub fn h_value(&self, v: f64) -> String {
+        format!("{}{}", crate::units::eng_number(v, 5), self.h)
+    }
+
+    /// An output value with its unit and sign: "-962.4 mV".
+    pub fn output_value(&self, v: f64) -> String {
+        eng(v, self.output.dim())
+    }
+}
+
+/// A complex number in engineering notation, a part below 10⁻¹⁰ of the whole printed as
+/// nothing (it is rounding, not a figure): "-300 k ± j400 k", "j611.23 G".
+pub fn complex_text(z: Complex64) -> String {
+    let tiny = 1e-10 * z.norm();
+    let re = if z.re.abs() <= tiny { 0.0 } else { z.re };
+    let im = if z.im.abs() <= tiny { 0.0 } else { z.im };
+    let num = |v: f64| crate::units::eng_plain(v, 5);
+    match (re == 0.0, im == 0.0) {
+        (_, true) => num(re),
+        (true, false) => format!("{}j{}", if im < 0.0 { "−" } else { "" }, num(im.abs())),
+        (false, false) => format!(
+            "{} {} j{}",
+            num(re),
+            if im < 0.0 { "−" } else { "+" },
+            num(im.abs())
+        ),
+    }
+}
+
+/// A signed figure with three decimals, "0" when it rounds to zero (never "-0.000").
+pub fn signed3(v: f64) -> String {
+    if v.abs() < 5e-4 {
+        "0".into()
+    } else {
+        format!("{v:+.3}")
     }
 }

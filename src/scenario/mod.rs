@@ -11,7 +11,7 @@ use reader::{Qty, Reader, SList, SQty};
 use crate::bench::Bench;
 use crate::estimate::Metric;
 use crate::network::{Network, NetworkError, NetworkSpec};
-use crate::plan::PlanSettings;
+use crate::plan::{AreaRule, MetricChoice, PlanSettings};
 use crate::pulse::{Convention, Trapezoid};
 use crate::units::{self, Dim, Signal};
 use serde::Deserialize;
@@ -45,8 +45,10 @@ pub struct Scenario {
     pub network: Network,
     /// Drive kind.
     pub drive: Signal,
-    /// Pulse area for planning (V·s or A·s).
-    pub area: f64,
+    /// What the output is: a voltage, or a current (a netlist's `current_through`).
+    pub output: Signal,
+    /// How the pulse's area is chosen.
+    pub area: AreaRule,
     /// Plan settings.
     pub plan: PlanSettings,
     /// The user's own pulse, if any.
@@ -87,6 +89,7 @@ struct RawNetwork {
 #[serde(deny_unknown_fields)]
 struct RawDrive {
     kind: Option<Spanned<String>>,
+    output: Option<Spanned<String>>,
     area: Option<SQty>,
 }
 
@@ -146,13 +149,15 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
         .network
         .as_ref()
         .ok_or_else(|| rd.err(None, "network", "the [network] section is missing: give time_constants, numerator/denominator, or poles/zeros/gain"))?;
-    let (drive, area) = drive(&rd, raw.drive.as_ref())?;
+    let (drive, output_kind, area) = drive(&rd, raw.drive.as_ref())?;
     let bench = instruments::bench(&rd, &raw.generator, &raw.capture, &raw.limits, drive)?;
     let generator_resistance = bench.generator.as_ref().and_then(|g| g.output_resistance);
     let network_spec = network_spec(&rd, net_raw, drive, generator_resistance)?;
     let network = Network::from_spec(&network_spec).map_err(|e| network_error(&rd, net_raw, e))?;
+    let output = output_kind_of(&rd, raw.drive.as_ref(), &network_spec, output_kind)?;
 
-    let plan = plan_settings(&rd, raw.plan.as_ref())?;
+    let mut plan = plan_settings(&rd, raw.plan.as_ref())?;
+    settle_metric(&rd, raw.plan.as_ref(), &network, &mut plan)?;
     let pulse = match &raw.pulse {
         Some(p) => Some(given_pulse(&rd, p, drive)?),
         None => None,
@@ -165,6 +170,7 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
         network,
         drive,
         area,
+        output,
         plan,
         pulse,
         bench,
@@ -398,38 +404,106 @@ fn network_error(rd: &Reader, net: &Spanned<RawNetwork>, e: NetworkError) -> Sce
     }
 }
 
-fn drive(rd: &Reader, d: Option<&Spanned<RawDrive>>) -> Result<(Signal, f64), ScenarioError> {
+/// The output's kind: a netlist says it (a current through a part, else a voltage); the
+/// transfer-function forms take `[drive] output` (default: a voltage).
+fn output_kind_of(
+    rd: &Reader,
+    d: Option<&Spanned<RawDrive>>,
+    spec: &NetworkSpec,
+    given: Option<Signal>,
+) -> Result<Signal, ScenarioError> {
+    let NetworkSpec::Netlist(n) = spec else {
+        return Ok(given.unwrap_or(Signal::Voltage));
+    };
+    let own = match n.output {
+        crate::netlist::Output::CurrentThrough(_) => Signal::Current,
+        _ => Signal::Voltage,
+    };
+    if given.is_some_and(|g| g != own) {
+        let span = d
+            .and_then(|d| d.get_ref().output.as_ref())
+            .map(|o| o.span());
+        return Err(rd.err(
+            span.as_ref(),
+            "drive.output",
+            "contradicts the netlist's output (network.output decides it for a circuit: a node or \
+             a pair is a voltage, current_through a current); leave drive.output out",
+        ));
+    }
+    Ok(own)
+}
+
+/// A signal kind written as "voltage" or "current".
+fn signal(rd: &Reader, k: &Spanned<String>, key: &str) -> Result<Signal, ScenarioError> {
+    match k.get_ref().as_str() {
+        "voltage" => Ok(Signal::Voltage),
+        "current" => Ok(Signal::Current),
+        other => Err(rd.err(
+            Some(&k.span()),
+            key,
+            format!("\"{other}\" is not a signal kind; use \"voltage\" or \"current\""),
+        )),
+    }
+}
+
+/// `[drive]`: the drive's kind, the output's kind (transfer-function forms), the area rule.
+fn drive(
+    rd: &Reader,
+    d: Option<&Spanned<RawDrive>>,
+) -> Result<(Signal, Option<Signal>, AreaRule), ScenarioError> {
     let Some(d) = d else {
-        return Ok((Signal::Voltage, 1.0));
+        return Ok((
+            Signal::Voltage,
+            None,
+            AreaRule::default_for(Signal::Voltage),
+        ));
     };
     let raw = d.get_ref();
     let kind = match &raw.kind {
         None => Signal::Voltage,
-        Some(k) => match k.get_ref().as_str() {
-            "voltage" => Signal::Voltage,
-            "current" => Signal::Current,
-            other => {
-                return Err(rd.err(
-                    Some(&k.span()),
-                    "drive.kind",
-                    format!("\"{other}\" is not a drive kind; use \"voltage\" or \"current\""),
-                ));
-            }
+        Some(k) => signal(rd, k, "drive.kind")?,
+    };
+    let output = raw
+        .output
+        .as_ref()
+        .map(|k| signal(rd, k, "drive.output"))
+        .transpose()?;
+    let area = match &raw.area {
+        None => AreaRule::default_for(kind),
+        Some(q) => AreaRule::Given {
+            area: area_value(rd, q, kind)?,
         },
     };
-    let area = match &raw.area {
-        None => 1.0,
-        Some(q) => {
-            let stripped = match q.get_ref() {
-                Qty::Text(t) => {
-                    Spanned::new(q.span(), Qty::Text(strip_area_unit(t, kind).to_string()))
-                }
-                other => Spanned::new(q.span(), other.clone()),
-            };
-            rd.positive(&stripped, "drive.area", Dim::Number)?
-        }
+    Ok((kind, output, area))
+}
+
+/// An area in V·s (voltage drive) or A·s (current drive); the other kind's unit is refused.
+fn area_value(rd: &Reader, q: &SQty, kind: Signal) -> Result<f64, ScenarioError> {
+    let Qty::Text(t) = q.get_ref() else {
+        return rd.positive(q, "drive.area", Dim::Number);
     };
-    Ok((kind, area))
+    let other = match kind {
+        Signal::Voltage => Signal::Current,
+        Signal::Current => Signal::Voltage,
+    };
+    if strip_area_unit(t, other) != t.trim() {
+        return Err(rd.err(
+            Some(&q.span()),
+            "drive.area",
+            format!(
+                "\"{t}\" is in {}, but a {} drive's area is in {} (e.g. \"10 n{}\")",
+                other.area_unit(),
+                match kind {
+                    Signal::Voltage => "voltage",
+                    Signal::Current => "current",
+                },
+                kind.area_unit(),
+                kind.area_unit()
+            ),
+        ));
+    }
+    let stripped = Spanned::new(q.span(), Qty::Text(strip_area_unit(t, kind).to_string()));
+    rd.positive(&stripped, "drive.area", Dim::Number)
 }
 
 fn strip_area_unit(text: &str, kind: Signal) -> &str {
@@ -442,6 +516,35 @@ fn strip_area_unit(text: &str, kind: Signal) -> &str {
         .iter()
         .find_map(|u| t.strip_suffix(u))
         .map_or(t, str::trim)
+}
+
+/// The default metric for the network when none is given; a reading at 0⁺ is refused for a
+/// network whose h(0⁺) = 0 (it would be compared with zero).
+fn settle_metric(
+    rd: &Reader,
+    p: Option<&RawPlan>,
+    net: &Network,
+    s: &mut PlanSettings,
+) -> Result<(), ScenarioError> {
+    if s.metric_choice == MetricChoice::ByNetwork {
+        s.metric = crate::plan::default_metric(net);
+        return Ok(());
+    }
+    if s.metric != Metric::Window && net.h0_negligible() && net.residues_known {
+        let span = p.and_then(|p| p.metric.as_ref()).map(|m| m.span());
+        return Err(rd.err(
+            span.as_ref(),
+            "plan.metric",
+            format!(
+                "\"{}\" judges the reading at the pulse's end, but h(0⁺) = 0 for this network (its \
+                 response starts from zero, so that reading is compared with ≈ 0 and means nothing). Use \
+                 metric = \"window\" (the error over the whole window, against the peak |h|), or leave \
+                 metric out for that default",
+                s.metric.name()
+            ),
+        ));
+    }
+    Ok(())
 }
 
 fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, ScenarioError> {
@@ -462,6 +565,7 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
         s.target_error = Some(v);
     }
     if let Some(m) = &p.metric {
+        s.metric_choice = MetricChoice::Given;
         s.metric = match m.get_ref().as_str() {
             "t0" => Metric::T0,
             "t0-aligned" => Metric::T0Aligned,
@@ -502,7 +606,7 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
         s.significance = v;
     }
     if let Some(q) = &p.min_width_ratio {
-        s.min_width_ratio = rd.positive(q, "plan.min_width_ratio", Dim::Number)?;
+        s.min_width_ratio = Some(rd.positive(q, "plan.min_width_ratio", Dim::Number)?);
     }
     if let Some(q) = &p.edge_ratio {
         s.edge_ratio = rd.positive(q, "plan.edge_ratio", Dim::Number)?;

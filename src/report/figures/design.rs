@@ -58,7 +58,7 @@ pub fn design_curve(
     let prep = &out.prep;
     let rule_width = prep.tau_plan / s.width_ratio;
     let planned_width = out.pulse.width_50();
-    let cap_width = prep.tau_plan / s.min_width_ratio;
+    let cap_width = crate::plan::width_cap(prep, s).width(prep.tau_plan);
     let lo = rule_width.min(planned_width) / 30.0;
     let hi = planned_width.max(cap_width) * 4.0;
     let n = n.max(2);
@@ -70,7 +70,7 @@ pub fn design_curve(
     widths.sort_by(f64::total_cmp);
     widths.dedup();
     let f = |w: f64| {
-        let p = tied_pulse(sc.area, w, s.edge_ratio);
+        let p = tied_pulse(sc.area.area(w), w, s.edge_ratio);
         let run = prep.run.max(p.end() * 2.0);
         prep.estimator.metric(&p, s.metric, run)
     };
