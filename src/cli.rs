@@ -15,7 +15,7 @@ pub struct Cli {
     /// What to do.
     #[command(subcommand)]
     pub command: Command,
-    /// Print no report on stdout (warnings still go to stderr).
+    /// Print no text report on stdout (warnings still go to stderr); --json output is still printed.
     #[arg(long, short, global = true)]
     pub quiet: bool,
 }
@@ -60,9 +60,10 @@ pub enum Command {
         /// Number of uniform grid points over the run (breakpoints are added).
         #[arg(long, default_value_t = 2001)]
         points: usize,
-        /// Use the planned pulse even when the scenario has a [pulse] section.
+        /// Use the scenario's own [pulse] instead of the planned pulse (the planned one is the
+        /// default, the same pulse as the report bundle's response.csv).
         #[arg(long)]
-        planned: bool,
+        given: bool,
     },
     /// Write a commented starter scenario NAME.toml in the current folder (never overwrites).
     New {
@@ -82,8 +83,9 @@ pub struct Common {
     /// Print one JSON object instead of the text report.
     #[arg(long)]
     pub json: bool,
-    /// Read ideal and predicted values at this instant (repeatable), e.g. --at 10us.
-    #[arg(long = "at", value_name = "TIME")]
+    /// Read ideal and predicted values at this instant (repeatable), e.g. --at 10us; t = 0
+    /// reads h(0⁺), and negative times (before the pulse) are allowed: --at -5us.
+    #[arg(long = "at", value_name = "TIME", allow_hyphen_values = true)]
     pub at: Vec<String>,
 }
 
@@ -218,7 +220,9 @@ fn warn_stderr(warnings: &Worded) {
 
 /// Print a report (or, when quiet, only its warnings on stderr).
 fn report_out(text: String, json: bool, quiet: bool, warnings: &Worded) -> Result<Outcome> {
-    if quiet {
+    // --quiet silences the human report; JSON is for a program, so it is still printed (and
+    // the warnings, which it carries, are not repeated on stderr).
+    if quiet && !json {
         warn_stderr(warnings);
         return Ok(outcome(warnings.act));
     }
@@ -308,7 +312,7 @@ gain  = "30k"
 # denominator = [1.0, 2000.0]
 # Form 3: only time constants known (residues unknown; errors are given per mode).
 # time_constants = ["5 ms", "80 us"]
-# Form 4: a circuit. input/output are node names; ground is "0" or "gnd".
+# Form 4: a circuit. input/output are node names; ground is "gnd" (or "ground").
 # input  = "in"
 # output = "out"             # or ["a", "b"], or { current_through = "R1" }
 # parts = [
@@ -407,6 +411,13 @@ pub fn run(cli: Cli) -> Result<Outcome> {
                 sc.plan.samples = Some(n);
             }
             if let Some(s) = seed {
+                if sc.plan.samples.is_none() {
+                    bail!(InputError(
+                        "--seed sets the Monte Carlo draw, which needs --samples N (or [plan] samples): \
+                         without it the tolerances are analysed at their corners and no seed is used"
+                            .into()
+                    ));
+                }
                 sc.plan.seed = s;
             }
             let times = parse_times(&common.at)?;
@@ -471,14 +482,23 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             file,
             csv,
             points,
-            planned,
+            given,
         } => {
             let sc = load(&file)?;
             if points < 2 {
                 bail!(InputError("--points must be at least 2".into()));
             }
-            let (pulse, run, warnings) = match (&sc.pulse, planned) {
-                (Some(g), false) => {
+            // The response table needs no tolerance analysis (it is of the nominal network).
+            let mut sc = sc;
+            sc.plan.tolerances = false;
+            if given && sc.pulse.is_none() {
+                bail!(InputError(format!(
+                    "{}: --given needs a [pulse] section (amplitude, width, rise, fall)",
+                    sc.file
+                )));
+            }
+            let (pulse, run, warnings) = match (&sc.pulse, given) {
+                (Some(g), true) => {
                     let out = crate::pipeline::assess(&sc, &g.pulse, g.run);
                     let w = Worded::new(&sc, &out.warnings, &out.prep.run_basis);
                     (out.pulse, out.run, w)
@@ -502,10 +522,23 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             if quiet {
                 return Ok(outcome(warnings.act));
             }
-            emit(
-                format!("wrote {} rows to {}\n", rows.len(), csv.display()),
-                warnings.act,
-            )
+            let which = if given {
+                "the scenario's [pulse]"
+            } else {
+                "the planned pulse"
+            };
+            let mut msg = format!(
+                "wrote {} rows to {} (response to {which}, {} wide)\n",
+                rows.len(),
+                csv.display(),
+                units::eng(pulse.width_50(), Dim::Time)
+            );
+            if !sc.network.residues_known {
+                msg.push_str(
+                    "note: only time constants are known, so the columns use unit residues (each mode e^(−t/τ), summed)\n",
+                );
+            }
+            emit(msg, warnings.act)
         }
         Command::New { name } => new_scenario(&name),
         Command::Completions { shell } => {

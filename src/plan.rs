@@ -32,6 +32,8 @@ pub struct PlanSettings {
     pub samples: Option<usize>,
     /// Seed of the Monte Carlo draw.
     pub seed: u64,
+    /// Whether the parts' tolerances are analysed (off for work on the nominal network only).
+    pub tolerances: bool,
     /// Run length in slowest time constants.
     pub settle_multiple: f64,
 }
@@ -51,6 +53,7 @@ impl Default for PlanSettings {
             significance: 0.01,
             samples: None,
             seed: 1,
+            tolerances: true,
             settle_multiple: 5.0,
         }
     }
@@ -642,6 +645,9 @@ fn tolerances(
     let NetworkSpec::Netlist(spec) = spec else {
         return None;
     };
+    if !s.tolerances {
+        return None;
+    }
     let parts = crate::tolerance::toleranced_parts(spec);
     let total = match s.samples {
         Some(n) => n,

@@ -137,12 +137,8 @@ pub enum UnitError {
 const PREFIXES: &[(&str, f64)] = &[
     ("T", 1e12),
     ("G", 1e9),
-    ("meg", 1e6),
-    ("Meg", 1e6),
-    ("MEG", 1e6),
     ("M", 1e6),
     ("k", 1e3),
-    ("K", 1e3),
     ("m", 1e-3),
     ("µ", 1e-6),
     ("μ", 1e-6),
@@ -185,13 +181,23 @@ fn split_number(s: &str) -> Option<(f64, &str)> {
 
 fn suggest(unit: &str, dim: Dim) -> String {
     let lower = unit.to_lowercase();
-    for (p, _) in PREFIXES {
-        for sym in dim.symbols() {
-            let cand = format!("{p}{sym}");
-            if cand.to_lowercase() == lower && cand != unit {
-                return format!(" (did you mean \"{cand}\"?)");
-            }
-        }
+    if lower.starts_with("meg") {
+        return " (write \"M\" for mega: prefixes are SI and case-sensitive, M mega, m milli)"
+            .into();
+    }
+    if unit.starts_with('K') {
+        return " (write \"k\" for kilo: prefixes are SI and case-sensitive)".into();
+    }
+    // Among the spellings that differ only in case, the one that keeps the most of the user's
+    // own letters (so "mh" is mH, not MH).
+    let same_case = |c: &str| c.chars().zip(unit.chars()).filter(|(a, b)| a == b).count();
+    let best = PREFIXES
+        .iter()
+        .flat_map(|(p, _)| dim.symbols().iter().map(move |sym| format!("{p}{sym}")))
+        .filter(|cand| cand.to_lowercase() == lower && cand != unit)
+        .max_by_key(|cand| same_case(cand));
+    if let Some(cand) = best {
+        return format!(" (did you mean \"{cand}\"?)");
     }
     for sym in dim.symbols() {
         if sym.to_lowercase() == lower && *sym != unit {
@@ -444,7 +450,7 @@ mod tests {
             ("20_000_000", Dim::Number, 2e7),
             ("-3.3", Dim::Voltage, -3.3),
             ("2.5 GHz", Dim::Frequency, 2.5e9),
-            ("1meg", Dim::Resistance, 1e6),
+            ("1 MΩ", Dim::Resistance, 1e6),
         ];
         for (text, dim, want) in cases {
             let got = parse_quantity(text, *dim).unwrap();
@@ -466,6 +472,13 @@ mod tests {
             Err(UnitError::NotFinite(_))
         ));
         assert!(parse_quantity("1e999", Dim::Number).is_err());
+        // Prefixes are SI and case-sensitive: the suggestion keeps the user's own letters.
+        let e = parse_quantity("250 mh", Dim::Inductance).unwrap_err();
+        assert!(e.to_string().contains("did you mean \"mH\""), "{e}");
+        for (text, hint) in [("1meg", "\"M\" for mega"), ("10K", "\"k\" for kilo")] {
+            let e = parse_quantity(text, Dim::Resistance).unwrap_err();
+            assert!(e.to_string().contains(hint), "{text}: {e}");
+        }
     }
 
     #[test]

@@ -85,7 +85,7 @@ fn malformed_files_exit_2_naming_key_and_line() {
             4,
         ),
         (
-            "[network]\npoles = [\"-5\"]\n[pulse]\namplitude = \"1 V\"\nwidth = \"1 ns\"\nrise = \"5 ns\"\n",
+            "[network]\npoles = [\"-5\"]\n[pulse]\namplitude = \"1 V\"\nwidth = \"1 ns\"\nrise = \"5 ns\"\nfall = \"5 ns\"\n",
             "pulse.width",
             5,
         ),
@@ -234,7 +234,7 @@ fn lag_lead_reading_matches_partial_fractions() {
         &dir,
         "ll.toml",
         "[network]\nnumerator = [1, 150]\ndenominator = [1, 1200]\n\
-         [pulse]\namplitude = \"10 V\"\nwidth = \"30us\"\nconvention = \"ramp\"\n",
+         [pulse]\namplitude = \"10 V\"\nwidth = \"30us\"\nrise = \"0 s\"\nfall = \"0 s\"\nconvention = \"ramp\"\n",
     );
     let v = json_of(&run(&["assess", f.to_str().unwrap(), "--json"]));
     assert_eq!(v["network"]["direct"].as_f64(), Some(1.0));
@@ -293,6 +293,7 @@ fn response_csv_is_complete_and_exact() {
         csv_path.to_str().unwrap(),
         "--points",
         "501",
+        "--given",
     ]);
     assert!(matches!(out.status.code(), Some(0 | 1)));
     let text = std::fs::read_to_string(&csv_path).unwrap();

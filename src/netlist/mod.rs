@@ -239,7 +239,7 @@ impl NetlistError {
 
 /// True for the ground node names `0` and `gnd` (any case).
 pub fn is_ground(node: &str) -> bool {
-    node == "0" || node.eq_ignore_ascii_case("gnd")
+    node == "0" || node.eq_ignore_ascii_case("gnd") || node.eq_ignore_ascii_case("ground")
 }
 
 /// Reduce a netlist to a state space whose order is the number of independent energy

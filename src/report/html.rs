@@ -3,7 +3,7 @@
 
 use super::figures::Figure;
 use super::markup::escape;
-use super::words::{self, Context};
+use super::words::{self, Context, Units};
 use crate::estimate::{ErrorEstimate, NormalisedBy};
 use crate::network::{Network, NetworkSpec};
 use crate::notice::Warning;
@@ -64,16 +64,7 @@ fn num(v: f64) -> String {
 }
 
 fn complex_text(z: Complex64) -> String {
-    if z.im == 0.0 {
-        num(z.re)
-    } else {
-        format!(
-            "{} {} j{}",
-            num(z.re),
-            if z.im < 0.0 { "−" } else { "+" },
-            num(z.im.abs())
-        )
-    }
+    words::complex_text(z)
 }
 
 /// A plain coefficient as HTML, without engineering prefixes (which would read as units):
@@ -185,11 +176,12 @@ fn network_function(spec: &NetworkSpec) -> String {
     }
 }
 
-fn modes_table(s: &mut String, net: &Network, significant: &[bool]) {
+fn modes_table(s: &mut String, net: &Network, significant: &[bool], u: &Units) {
     let _ = writeln!(
         s,
-        "<table><thead><tr><th>pole (rad/s)</th><th>m</th><th>residues r₁, r₂… (1/s<sup>k</sup>)</th>\
-         <th>τ = 1/|Re p|</th><th>|p|</th><th>ζ</th><th>significant</th></tr></thead><tbody>"
+        "<table><thead><tr><th>pole (rad/s)</th><th>m</th><th>residues r₁, r₂… ({})</th>\
+         <th>τ = 1/|Re p|</th><th>|p|</th><th>ζ</th><th>significant</th></tr></thead><tbody>",
+        escape(&u.residue).replace("^k", "<sup>k</sup>")
     );
     // Long tables keep the significant modes and count the rest.
     let long = net.modes.len() > 40;
@@ -240,7 +232,7 @@ fn bench_html(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
 }
 
 /// The tolerance section, when parts carry tolerances.
-fn tolerance_html(s: &mut String, out: &PlanOutcome) {
+fn tolerance_html(s: &mut String, out: &PlanOutcome, u: &Units) {
     let Some(t) = &out.tolerance else { return };
     let how = match t.method {
         crate::tolerance::Method::Corners { count } => format!("{count} corners"),
@@ -270,8 +262,12 @@ fn tolerance_html(s: &mut String, out: &PlanOutcome) {
     if t.h0.nominal != 0.0 {
         row(
             s,
-            "h(0⁺) (1/s)",
-            &[num(t.h0.nominal), num(t.h0.min), num(t.h0.max)],
+            "h(0⁺)",
+            &[
+                u.h_value(t.h0.nominal),
+                u.h_value(t.h0.min),
+                u.h_value(t.h0.max),
+            ],
         );
     }
     let _ = writeln!(s, "</tbody></table>");
@@ -364,7 +360,7 @@ fn pulses_table(s: &mut String, cols: &[(&str, &Trapezoid)], run: f64, drive: Si
     let _ = writeln!(s, "</tbody></table>");
 }
 
-fn errors_table(s: &mut String, e: &ErrorEstimate) {
+fn errors_table(s: &mut String, e: &ErrorEstimate, u: &Units) {
     let norm = match e.normalised_by {
         NormalisedBy::H0Plus => "|h(0⁺)|",
         NormalisedBy::Peak => "the peak |h| (h(0⁺) = 0)",
@@ -373,9 +369,9 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
     if e.per_mode.is_empty() {
         let _ = writeln!(
             s,
-            "<p class=\"note\">Exact figures, signed, relative to {} = {} /s.</p>",
+            "<p class=\"note\">Exact figures, signed, relative to {} = {}.</p>",
             escape(norm),
-            escape(&num(e.normaliser))
+            escape(&u.h_value(e.normaliser))
         );
         let _ = writeln!(
             s,
@@ -384,10 +380,10 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
         );
         let _ = writeln!(
             s,
-            "<tr><th>t0 (raw): y(end)/area vs h(0⁺)</th><td class=\"num\">{} /s</td><td class=\"num\">{} /s</td>\
+            "<tr><th>t0 (raw): y(end)/area vs h(0⁺)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
              <td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
-            escape(&num(e.t0.reading)),
-            escape(&num(e.t0.ideal)),
+            escape(&u.h_value(e.t0.reading)),
+            escape(&u.h_value(e.t0.ideal)),
             escape(&words::relative(e.t0.rel, e.floor)),
             escape(&words::first_order_text(
                 e.first_order.t0_rel,
@@ -396,10 +392,10 @@ fn errors_table(s: &mut String, e: &ErrorEstimate) {
         );
         let _ = writeln!(
             s,
-            "<tr><th>t0-aligned: vs h(end − centroid)</th><td class=\"num\">{} /s</td><td class=\"num\">{} /s</td>\
+            "<tr><th>t0-aligned: vs h(end − centroid)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
              <td class=\"num\">{}</td><td class=\"num\">{} (½σ²h″)</td></tr>",
-            escape(&num(e.t0_aligned.reading)),
-            escape(&num(e.t0_aligned.ideal)),
+            escape(&u.h_value(e.t0_aligned.reading)),
+            escape(&u.h_value(e.t0_aligned.ideal)),
             escape(&words::relative(e.t0_aligned.rel, e.floor)),
             escape(&words::first_order_text(
                 e.first_order.t0_aligned_rel,
@@ -607,7 +603,8 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         escape(net.form.name()),
         net.order()
     );
-    modes_table(&mut s, net, &prep.significant);
+    let u = Units::of(sc.drive, sc.output);
+    modes_table(&mut s, net, &prep.significant, &u);
     let _ = writeln!(s, "<table><tbody>");
     if !net.zeros.is_empty() {
         let zs: Vec<String> = net.zeros.iter().map(|&z| complex_text(z)).collect();
@@ -644,17 +641,17 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
             &mut s,
             "h(0⁺)",
             &[format!(
-                "{} /s from the modes, {} /s by the initial-value theorem",
-                num(net.h0_plus()),
-                num(net.h0_ivt)
+                "{} from the modes, {} by the initial-value theorem",
+                u.h_value(net.h0_plus()),
+                u.h_value(net.h0_ivt)
             )],
         );
         row(
             &mut s,
             "peak |h|",
             &[format!(
-                "{} /s at {}",
-                num(prep.shape.peak),
+                "{} at {}",
+                u.h_value(prep.shape.peak),
                 eng(prep.shape.t_peak, Dim::Time)
             )],
         );
@@ -723,14 +720,14 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
     );
 
     bench_html(&mut s, sc, out);
-    tolerance_html(&mut s, out);
+    tolerance_html(&mut s, out, &u);
 
     // Errors.
     let _ = writeln!(
         s,
         "<section><h2>Predicted error of the recommended pulse</h2>"
     );
-    errors_table(&mut s, e);
+    errors_table(&mut s, e, &u);
     if out.budget.as_ref().is_some_and(|b| b.widening.is_some()) {
         let r = &out.rule_estimate;
         let _ = writeln!(

@@ -26,17 +26,25 @@ pub fn generator_sheet(sc: &Scenario, out: &PlanOutcome) -> String {
     }
     let _ = writeln!(s);
     let _ = writeln!(s, "GENERATOR VIEW (enter these on a bench pulse generator)");
-    let load = gen_
-        .load_setting
-        .map_or("high-z (display = open-circuit voltage)".to_string(), |l| {
-            format!("{} Ω load assumed by the display", l.name())
-        });
+    let load = match gen_.load_setting {
+        Some(crate::bench::LoadSetting::Fifty) => {
+            "50 Ω (the display shows the voltage across a matched 50 Ω load)"
+        }
+        _ => "high impedance (the display shows the open-circuit voltage)",
+    };
     let _ = writeln!(s, "  output load setting      {load}");
+    let at = match b.amplitude.peak_terminal {
+        Some(t) => format!(
+            "open-circuit level {}, {} at the circuit's input terminals",
+            eng(p.amplitude, dim),
+            eng(t, dim)
+        ),
+        None => format!("{} at the circuit input", eng(p.amplitude, dim)),
+    };
     let _ = writeln!(
         s,
-        "  high level               {}   (display value; {} at the circuit input)",
-        eng(b.amplitude.display_amplitude, dim),
-        eng(p.amplitude, dim)
+        "  high level               {}   (display value; {at})",
+        eng(b.amplitude.display_amplitude, dim)
     );
     let _ = writeln!(s, "  low level                0");
     let _ = writeln!(

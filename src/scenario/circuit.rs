@@ -60,6 +60,23 @@ fn pair(
     }
 }
 
+/// Ground is "gnd" (or "ground"); a node named "0" is refused with what to write instead.
+fn not_zero_ground(
+    rd: &Reader,
+    span: &std::ops::Range<usize>,
+    key: &str,
+    node: &str,
+) -> Result<(), ScenarioError> {
+    if node.trim() == "0" {
+        return Err(rd.err(
+            Some(span),
+            key,
+            "a node named \"0\" is not ground here: write \"gnd\" (or \"ground\") for the ground node",
+        ));
+    }
+    Ok(())
+}
+
 fn need_str(
     rd: &Reader,
     span: &std::ops::Range<usize>,
@@ -96,6 +113,15 @@ fn part(rd: &Reader, i: usize, sp: &Spanned<RawPart>) -> Result<Part, ScenarioEr
         )
     })?;
     let key = |k: &str| format!("{base} ({name}).{k}");
+    let named_nodes = p
+        .nodes
+        .iter()
+        .chain(p.control.iter())
+        .flatten()
+        .chain([&p.plus, &p.minus, &p.output].into_iter().flatten());
+    for n in named_nodes {
+        not_zero_ground(rd, &span, &key("nodes"), n)?;
+    }
     let kind_text = p
         .kind
         .clone()
@@ -169,7 +195,7 @@ fn part(rd: &Reader, i: usize, sp: &Spanned<RawPart>) -> Result<Part, ScenarioEr
         .tolerance
         .as_ref()
         .map(|q| {
-            let t = rd.number(q, &key("tolerance"), Dim::Fraction)?;
+            let t = rd.fraction(q, &key("tolerance"))?;
             if !(0.0..1.0).contains(&t) {
                 return Err(rd.err(
                     Some(&q.span()),
@@ -210,6 +236,15 @@ pub(crate) fn netlist_spec(
             "a netlist needs the output (a node, [a, b], or { current_through = \"R1\" })",
         )
     })?;
+    not_zero_ground(rd, &input.span(), "network.input", input.get_ref())?;
+    let named: Vec<&String> = match output.get_ref() {
+        RawOutput::Node(n) => vec![n],
+        RawOutput::Pair(v) => v.iter().collect(),
+        RawOutput::Through { .. } => Vec::new(),
+    };
+    for n in named {
+        not_zero_ground(rd, &output.span(), "network.output", n)?;
+    }
     let out = match output.get_ref() {
         RawOutput::Node(n) => Output::Node(n.clone()),
         RawOutput::Pair(v) if v.len() == 2 => Output::Differential(v[0].clone(), v[1].clone()),

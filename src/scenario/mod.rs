@@ -118,15 +118,69 @@ struct RawPulse {
     run: Option<SQty>,
 }
 
+/// The largest scenario file read, bytes (a scenario of 10 000 parts is under 1 MiB).
+pub const MAX_SCENARIO_BYTES: u64 = 16 << 20;
+
+fn file_error(file: &str, message: String) -> ScenarioError {
+    ScenarioError {
+        file: file.to_string(),
+        line: 0,
+        key: String::new(),
+        message,
+    }
+}
+
+/// The file's text: a regular file, at most [`MAX_SCENARIO_BYTES`], valid UTF-8.
+fn read_text(path: &Path, file: &str) -> Result<String, ScenarioError> {
+    use std::io::Read;
+    let cannot =
+        |e: std::io::Error| file_error(file, format!("cannot read the scenario file: {e}"));
+    let meta = std::fs::metadata(path).map_err(cannot)?;
+    if !meta.is_file() {
+        return Err(file_error(
+            file,
+            "is not a regular file: give the path of a scenario file (folders, pipes and devices are not read)".into(),
+        ));
+    }
+    let too_big = || {
+        file_error(
+            file,
+            format!(
+                "is larger than the {} MiB a scenario may have",
+                MAX_SCENARIO_BYTES >> 20
+            ),
+        )
+    };
+    if meta.len() > MAX_SCENARIO_BYTES {
+        return Err(too_big());
+    }
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)
+        .and_then(|f| f.take(MAX_SCENARIO_BYTES + 1).read_to_end(&mut bytes))
+        .map_err(cannot)?;
+    if bytes.len() as u64 > MAX_SCENARIO_BYTES {
+        return Err(too_big());
+    }
+    String::from_utf8(bytes).map_err(|e| {
+        let at = e.utf8_error().valid_up_to();
+        let head = &e.as_bytes()[..at];
+        let line = head.iter().filter(|&&b| b == b'\n').count() + 1;
+        let column = at - head.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1) + 1;
+        ScenarioError {
+            file: file.to_string(),
+            line,
+            key: "(text)".into(),
+            message: format!(
+                "byte {column} of this line is not valid UTF-8 (save the file as UTF-8)"
+            ),
+        }
+    })
+}
+
 /// Read and validate a scenario file.
 pub fn load(path: &Path) -> Result<Scenario, ScenarioError> {
     let file = path.display().to_string();
-    let text = std::fs::read_to_string(path).map_err(|e| ScenarioError {
-        file: file.clone(),
-        line: 1,
-        key: "(file)".into(),
-        message: format!("cannot read: {e}"),
-    })?;
+    let text = read_text(path, &file)?;
     let name = path
         .file_stem()
         .map(|s| s.to_string_lossy().into_owned())
@@ -148,7 +202,7 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
     let net_raw = raw
         .network
         .as_ref()
-        .ok_or_else(|| rd.err(None, "network", "the [network] section is missing: give time_constants, numerator/denominator, or poles/zeros/gain"))?;
+        .ok_or_else(|| rd.err(None, "network", "the [network] section is missing: give time_constants, numerator/denominator, poles/zeros/gain, or a netlist (input, output, parts)"))?;
     let (drive, output_kind, area) = drive(&rd, raw.drive.as_ref())?;
     let bench = instruments::bench(&rd, &raw.generator, &raw.capture, &raw.limits, drive)?;
     let generator_resistance = bench.generator.as_ref().and_then(|g| g.output_resistance);
@@ -384,6 +438,8 @@ fn network_error(rd: &Reader, net: &Spanned<RawNetwork>, e: NetworkError) -> Sce
                 None
             };
             let key = match &span {
+                // An error with a part's line is that part's (a duplicate name, a bad value…).
+                _ if ne.line.is_some() => "network.parts",
                 Some(_) if n.input.as_ref().is_some_and(|i| ne.culprit == *i.get_ref()) => {
                     "network.input"
                 }
@@ -551,7 +607,14 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
     let mut s = PlanSettings::default();
     let Some(p) = p else { return Ok(s) };
     if let Some(q) = &p.target_error {
-        let v = rd.positive(q, "plan.target_error", Dim::Fraction)?;
+        let v = rd.fraction(q, "plan.target_error")?;
+        if v <= 0.0 {
+            return Err(rd.err(
+                Some(&q.span()),
+                "plan.target_error",
+                format!("must be positive, got {}", rd.shown(q)),
+            ));
+        }
         if v >= 1.0 {
             return Err(rd.err(
                 Some(&q.span()),
@@ -595,7 +658,7 @@ fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, Scena
         s.seed = v as u64;
     }
     if let Some(q) = &p.significance {
-        let v = rd.number(q, "plan.significance", Dim::Fraction)?;
+        let v = rd.fraction(q, "plan.significance")?;
         if !(0.0..1.0).contains(&v) {
             return Err(rd.err(
                 Some(&q.span()),
@@ -647,7 +710,12 @@ fn given_pulse(
     let width = rd.positive(&width_q, "pulse.width", Dim::Time)?;
     let edge = |q: &Option<SQty>, key: &str| -> Result<f64, ScenarioError> {
         match q {
-            None => Ok(0.0),
+            None => Err(rd.err(
+                Some(&p.span()),
+                key,
+                "is required in [pulse]: the edge's duration (10–90 % in the generator convention, \
+                 the full ramp in the ramp convention); write \"0 s\" for an ideal edge",
+            )),
             Some(q) => {
                 let v = rd.number(q, key, Dim::Time)?;
                 if v < 0.0 {

@@ -9,16 +9,30 @@ use toml::Spanned;
 
 /// A bad scenario: where, which key, what is wrong.
 #[derive(Debug, thiserror::Error, Clone, PartialEq)]
-#[error("{file}:{line}: {key}: {message}")]
+#[error("{}", self.shown())]
 pub struct ScenarioError {
     /// File name as given.
     pub file: String,
-    /// 1-based line (1 when the problem concerns the whole file).
+    /// 1-based line; 0 when the problem concerns the file itself (it cannot be read).
     pub line: usize,
     /// Dotted key, e.g. `network.poles[1]`.
     pub key: String,
     /// What is wrong and what would be accepted.
     pub message: String,
+}
+
+impl ScenarioError {
+    /// "file:line: key: message", or "file: message" for the file itself.
+    fn shown(&self) -> String {
+        if self.line == 0 {
+            format!("{}: {}", self.file, self.message)
+        } else {
+            format!(
+                "{}:{}: {}: {}",
+                self.file, self.line, self.key, self.message
+            )
+        }
+    }
 }
 
 /// A quantity as written: a TOML number or a string with engineering notation.
@@ -36,20 +50,36 @@ pub(crate) type SList = Spanned<Vec<SQty>>;
 /// Reads one file's values, turning spans into line numbers for messages.
 pub(crate) struct Reader<'a> {
     pub(crate) file: &'a str,
+    text: &'a str,
     /// Byte offset of the start of each line after the first, ascending.
     line_starts: Vec<usize>,
 }
 
 impl<'a> Reader<'a> {
     /// Index the text's lines once, so every lookup is a binary search.
-    pub(crate) fn new(file: &'a str, text: &str) -> Reader<'a> {
+    pub(crate) fn new(file: &'a str, text: &'a str) -> Reader<'a> {
         let line_starts = text
             .bytes()
             .enumerate()
             .filter(|&(_, b)| b == b'\n')
             .map(|(i, _)| i + 1)
             .collect();
-        Reader { file, line_starts }
+        Reader {
+            file,
+            text,
+            line_starts,
+        }
+    }
+
+    /// The value as the user wrote it (its source text), for messages: never a re-printed f64.
+    pub(crate) fn shown(&self, q: &SQty) -> String {
+        match q.get_ref() {
+            Qty::Text(t) => format!("\"{t}\""),
+            _ => self
+                .text
+                .get(q.span())
+                .map_or_else(|| "the value".into(), |t| t.trim().to_string()),
+        }
     }
 
     pub(crate) fn line_of(&self, span: &Range<usize>) -> usize {
@@ -78,7 +108,11 @@ impl<'a> Reader<'a> {
                 .map_err(|e| self.err(Some(&q.span()), key, e.to_string()))?,
         };
         if !v.is_finite() {
-            return Err(self.err(Some(&q.span()), key, format!("{v} is not a finite number")));
+            return Err(self.err(
+                Some(&q.span()),
+                key,
+                format!("{} is not a finite number", self.shown(q)),
+            ));
         }
         Ok(v)
     }
@@ -86,9 +120,30 @@ impl<'a> Reader<'a> {
     pub(crate) fn positive(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
         let v = self.number(q, key, dim)?;
         if v <= 0.0 {
-            return Err(self.err(Some(&q.span()), key, format!("must be positive, got {v}")));
+            return Err(self.err(
+                Some(&q.span()),
+                key,
+                format!("must be positive, got {}", self.shown(q)),
+            ));
         }
         Ok(v)
+    }
+
+    /// A fraction, written with its unit ("0.5 %", "200 ppm"): a plain number is refused,
+    /// since 0.5 could mean 0.5 % or 50 %.
+    pub(crate) fn fraction(&self, q: &SQty, key: &str) -> Result<f64, ScenarioError> {
+        let with_unit = matches!(q.get_ref(), Qty::Text(t) if t.trim_end().ends_with('%') || t.trim_end().ends_with("ppm"));
+        if !with_unit {
+            return Err(self.err(
+                Some(&q.span()),
+                key,
+                format!(
+                    "{} has no unit: write it as a percentage, e.g. \"0.5 %\" (a plain 0.5 would read as 50 %)",
+                    self.shown(q)
+                ),
+            ));
+        }
+        self.number(q, key, Dim::Fraction)
     }
 
     pub(crate) fn list(&self, l: &SList, key: &str, dim: Dim) -> Result<Vec<f64>, ScenarioError> {
