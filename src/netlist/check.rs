@@ -136,7 +136,7 @@ fn positive(value: f64, what: &str, name: &str, line: usize) -> Result<(), Netli
         return Err(NetlistError::new(
             Some(line),
             name,
-            format!("{what} must be positive and finite, got {value}"),
+            format!("{what} must be positive and finite, got {value:e}"),
         ));
     }
     Ok(())

@@ -284,7 +284,9 @@ pub(crate) fn netlist_spec(
                     Some(&q.span()),
                     "network.source_resistance",
                     format!(
-                        "{v} Ω disagrees with [generator] output_resistance {g} Ω; they describe the same resistance, give one"
+                        "{} disagrees with [generator] output_resistance ({}); they describe the same resistance, give one",
+                        rd.shown(q),
+                        crate::units::eng(g, Dim::Resistance)
                     ),
                 ));
             }

@@ -319,7 +319,7 @@ fn network_spec(
                 return Err(rd.err(
                     Some(&q.span()),
                     &format!("network.time_constants[{i}]"),
-                    format!("time constant must be positive, got {t}"),
+                    format!("time constant must be positive, got {}", rd.shown(q)),
                 ));
             }
         }

@@ -283,7 +283,9 @@ def check_scenario(C, binary, path):
 def check_csv(C, binary, path, name, net, pulse, M, norm):
     with tempfile.TemporaryDirectory() as td:
         out = Path(td) / (name + ".csv")
-        rc, so, se = run_tool(binary, "response", path, "--csv", out)
+        # the response to the scenario's own [pulse] (the planned pulse is the default)
+        given = ["--given"] if "[pulse]" in Path(path).read_text() else []
+        rc, so, se = run_tool(binary, "response", path, "--csv", out, *given)
         if not C.check("%s: response exit code 0/1 and CSV written" % name, rc in (0, 1) and out.exists(),
                        "rc=%d stderr=%s" % (rc, se.strip()[:300])):
             return
