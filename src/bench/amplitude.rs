@@ -112,6 +112,93 @@ fn input_limit(inp: &BenchInput, terminal_ratio: f64) -> Option<(AmplitudeLimit,
     }
 }
 
+/// What the limits did to the amplitude: the limits that scaled it (adapting) or the
+/// warnings (checking).
+#[derive(Default)]
+struct Limited {
+    reasons: Vec<LimitHit>,
+    warnings: Vec<Warning>,
+}
+
+/// The input limit on the source's level (stated at the terminals for the circuit's own).
+fn apply_input_limit(
+    inp: &BenchInput,
+    pulse: &mut Trapezoid,
+    terminal_ratio: f64,
+    adapt: bool,
+    out: &mut Limited,
+) {
+    let Some((which, lim)) = input_limit(inp, terminal_ratio) else {
+        return;
+    };
+    if pulse.amplitude.abs() <= lim {
+        return;
+    }
+    let at = if which == AmplitudeLimit::CircuitInput {
+        terminal_ratio
+    } else {
+        1.0
+    };
+    if adapt {
+        out.reasons.push(LimitHit {
+            which,
+            value: pulse.amplitude * at,
+            limit: lim * at,
+        });
+        pulse.amplitude = lim.copysign(pulse.amplitude);
+    } else if pulse.amplitude.abs() > lim * (1.0 + 1e-12) {
+        out.warnings.push(Warning::AmplitudeExceedsLimit {
+            amplitude: pulse.amplitude * at,
+            limit: lim * at,
+            which,
+        });
+    }
+}
+
+/// The output's linear range: scale the pulse into it (adapting) or warn. Returns the output's
+/// extreme after any scaling.
+fn apply_output_range(
+    inp: &BenchInput,
+    prep: &Prepared,
+    pulse: &mut Trapezoid,
+    adapt: bool,
+    out: &mut Limited,
+) -> f64 {
+    let extreme = peak_output(prep, pulse, prep.run);
+    let peak = extreme.abs();
+    let max_out = inp.bench.limits.as_ref().and_then(|l| l.max_output);
+    let Some(max_out) = max_out.filter(|&m| peak > m) else {
+        return extreme;
+    };
+    if !adapt {
+        out.warnings.push(Warning::OutputBeyondRange {
+            peak,
+            max_output: max_out,
+        });
+        return extreme;
+    }
+    out.reasons.push(LimitHit {
+        which: AmplitudeLimit::CircuitOutput,
+        value: peak,
+        limit: max_out,
+    });
+    let k = max_out / peak;
+    pulse.amplitude *= k;
+    extreme * k
+}
+
+/// Peak at the terminals per unit source amplitude (linear, so one evaluation serves); 1 when
+/// the source drives the terminals directly.
+fn terminal_ratio(inp: &BenchInput, prep: &Prepared, timed: &Trapezoid) -> f64 {
+    inp.terminal.map_or(1.0, |net| {
+        let unit = Trapezoid {
+            amplitude: 1.0,
+            ..*timed
+        };
+        peak_of(&Modal::new(net), prep.tau_fast, &unit, prep.run).max(f64::MIN_POSITIVE)
+    })
+}
+
 /// Fit the amplitude to the limits (`adapt`), or only check it (`adapt` false).
 pub fn fit(
     inp: &BenchInput,
@@ -121,62 +208,11 @@ pub fn fit(
     adapt: bool,
 ) -> AmplitudeStep {
     let mut pulse = *timed;
-    let mut reasons = Vec::new();
-    let mut warnings = Vec::new();
-    // Peak at the terminals per unit source amplitude (linear, so one evaluation serves).
-    let terminal_ratio = inp.terminal.map_or(1.0, |net| {
-        let unit = Trapezoid {
-            amplitude: 1.0,
-            ..*timed
-        };
-        peak_of(&Modal::new(net), prep.tau_fast, &unit, prep.run).max(f64::MIN_POSITIVE)
-    });
-    let limit = input_limit(inp, terminal_ratio);
-    if let Some((which, lim)) = limit
-        && pulse.amplitude.abs() > lim
-    {
-        // The circuit's limit is stated at its terminals: word it there.
-        let at = if which == AmplitudeLimit::CircuitInput {
-            terminal_ratio
-        } else {
-            1.0
-        };
-        if adapt {
-            reasons.push(LimitHit {
-                which,
-                value: pulse.amplitude * at,
-                limit: lim * at,
-            });
-            pulse.amplitude = lim.copysign(pulse.amplitude);
-        } else if pulse.amplitude.abs() > lim * (1.0 + 1e-12) {
-            warnings.push(Warning::AmplitudeExceedsLimit {
-                amplitude: pulse.amplitude * at,
-                limit: lim * at,
-                which,
-            });
-        }
-    }
-    let mut extreme = peak_output(prep, &pulse, prep.run);
-    let mut peak_out = extreme.abs();
-    let max_out = inp.bench.limits.as_ref().and_then(|l| l.max_output);
-    if let Some(max_out) = max_out.filter(|&m| peak_out > m) {
-        if adapt {
-            reasons.push(LimitHit {
-                which: AmplitudeLimit::CircuitOutput,
-                value: peak_out,
-                limit: max_out,
-            });
-            let k = max_out / peak_out;
-            pulse.amplitude *= k;
-            peak_out *= k;
-            extreme *= k;
-        } else {
-            warnings.push(Warning::OutputBeyondRange {
-                peak: peak_out,
-                max_output: max_out,
-            });
-        }
-    }
+    let mut lim = Limited::default();
+    let ratio = terminal_ratio(inp, prep, timed);
+    apply_input_limit(inp, &mut pulse, ratio, adapt, &mut lim);
+    let extreme = apply_output_range(inp, prep, &mut pulse, adapt, &mut lim);
+    let mut warnings = lim.warnings;
     if !adapt {
         let min_width = inp.bench.generator.as_ref().and_then(|g| g.min_width);
         if let Some(w) = min_width.filter(|&w| pulse.width_50() < w) {
@@ -190,17 +226,17 @@ pub fn fit(
         requested_area,
         area: pulse.area(),
         read_factor: 1.0 / pulse.area(),
-        reasons,
+        reasons: lim.reasons,
     };
-    let mut notes = Vec::new();
-    if !scaling.reasons.is_empty() {
-        notes.push(Note::AreaPlannedDown {
+    let notes = (!scaling.reasons.is_empty())
+        .then(|| Note::AreaPlannedDown {
             requested: requested_area,
             area: scaling.area,
             read_factor: scaling.read_factor,
             limits: scaling.reasons.clone(),
-        });
-    }
+        })
+        .into_iter()
+        .collect();
     warnings.extend(hazard(inp.drive, &pulse));
     let open_over_display = match inp.drive {
         Signal::Voltage => inp
@@ -215,8 +251,8 @@ pub fn fit(
         open_over_display,
         scaling,
         peak_input: pulse.amplitude.abs(),
-        peak_terminal: inp.terminal.map(|_| pulse.amplitude.abs() * terminal_ratio),
-        peak_output: peak_out,
+        peak_terminal: inp.terminal.map(|_| pulse.amplitude.abs() * ratio),
+        peak_output: extreme.abs(),
         output_extreme: extreme,
     };
     AmplitudeStep {

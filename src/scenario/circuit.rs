@@ -126,10 +126,29 @@ fn part(rd: &Reader, i: usize, sp: &Spanned<RawPart>) -> Result<Part, ScenarioEr
         .kind
         .clone()
         .ok_or_else(|| rd.err(Some(&span), &key("kind"), "every part needs a kind"))?;
+    let kind = part_kind(rd, &span, &key, p, &kind_text)?;
+    let tolerance = part_tolerance(rd, &key, p)?;
+    Ok(Part {
+        name,
+        kind,
+        line,
+        tolerance,
+    })
+}
+
+/// The part's kind and its values, by `kind`.
+fn part_kind(
+    rd: &Reader,
+    span: &std::ops::Range<usize>,
+    key: &dyn Fn(&str) -> String,
+    p: &RawPart,
+    kind_text: &str,
+) -> Result<PartKind, ScenarioError> {
+    let span = span.clone();
     let value = |dim: Dim| need_qty(rd, &span, &key("value"), &p.value, dim);
     let gain = |dim: Dim| need_qty(rd, &span, &key("gain"), &p.gain, dim);
     let nodes = || pair(rd, &span, &key("nodes"), &p.nodes);
-    let kind = match kind_text.as_str() {
+    let kind = match kind_text {
         "resistor" => PartKind::Resistor {
             nodes: nodes()?,
             value: value(Dim::Resistance)?,
@@ -191,8 +210,16 @@ fn part(rd: &Reader, i: usize, sp: &Spanned<RawPart>) -> Result<Part, ScenarioEr
             ));
         }
     };
-    let tolerance = p
-        .tolerance
+    Ok(kind)
+}
+
+/// The part's tolerance, a percentage in [0, 100 %).
+fn part_tolerance(
+    rd: &Reader,
+    key: &dyn Fn(&str) -> String,
+    p: &RawPart,
+) -> Result<Option<f64>, ScenarioError> {
+    p.tolerance
         .as_ref()
         .map(|q| {
             let t = rd.fraction(q, &key("tolerance"))?;
@@ -205,13 +232,7 @@ fn part(rd: &Reader, i: usize, sp: &Spanned<RawPart>) -> Result<Part, ScenarioEr
             }
             Ok(t)
         })
-        .transpose()?;
-    Ok(Part {
-        name,
-        kind,
-        line,
-        tolerance,
-    })
+        .transpose()
 }
 
 /// Build the netlist specification.

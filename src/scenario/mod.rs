@@ -2,20 +2,21 @@
 //! the model types the rest of the library uses.
 
 mod circuit;
+mod forms;
 mod instruments;
+mod planning;
 mod reader;
 
+pub use planning::MAX_SAMPLES;
 pub use reader::ScenarioError;
-use reader::{Qty, Reader, SList, SQty};
+use reader::{Qty, Reader, SQty};
 
 use crate::bench::Bench;
-use crate::estimate::Metric;
-use crate::network::{Network, NetworkError, NetworkSpec};
-use crate::plan::{AreaRule, MetricChoice, PlanSettings};
+use crate::network::{Network, NetworkSpec};
+use crate::plan::{AreaRule, PlanSettings};
 use crate::pulse::{Convention, Trapezoid};
-use crate::units::{self, Dim, Signal};
+use crate::units::{Dim, Signal};
 use serde::Deserialize;
-use std::ops::Range;
 use std::path::Path;
 use toml::Spanned;
 
@@ -61,9 +62,9 @@ pub struct Scenario {
 #[serde(deny_unknown_fields)]
 pub(crate) struct RawScenario {
     title: Option<String>,
-    network: Option<Spanned<RawNetwork>>,
+    network: Option<Spanned<forms::RawNetwork>>,
     drive: Option<Spanned<RawDrive>>,
-    plan: Option<RawPlan>,
+    plan: Option<planning::RawPlan>,
     pulse: Option<Spanned<RawPulse>>,
     pub(crate) generator: Option<Spanned<instruments::RawGenerator>>,
     pub(crate) capture: Option<Spanned<instruments::RawCapture>>,
@@ -72,39 +73,10 @@ pub(crate) struct RawScenario {
 
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
-struct RawNetwork {
-    time_constants: Option<SList>,
-    numerator: Option<SList>,
-    denominator: Option<SList>,
-    poles: Option<SList>,
-    zeros: Option<SList>,
-    gain: Option<SQty>,
-    input: Option<Spanned<String>>,
-    output: Option<Spanned<circuit::RawOutput>>,
-    source_resistance: Option<SQty>,
-    parts: Option<Spanned<Vec<Spanned<circuit::RawPart>>>>,
-}
-
-#[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
 struct RawDrive {
     kind: Option<Spanned<String>>,
     output: Option<Spanned<String>>,
     area: Option<SQty>,
-}
-
-#[derive(Debug, Deserialize)]
-#[serde(deny_unknown_fields)]
-struct RawPlan {
-    target_error: Option<SQty>,
-    metric: Option<Spanned<String>>,
-    width_ratio: Option<SQty>,
-    edge_ratio: Option<SQty>,
-    min_width_ratio: Option<SQty>,
-    significance: Option<SQty>,
-    samples: Option<SQty>,
-    seed: Option<SQty>,
-    settle_multiple: Option<SQty>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -206,12 +178,13 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
     let (drive, output_kind, area) = drive(&rd, raw.drive.as_ref())?;
     let bench = instruments::bench(&rd, &raw.generator, &raw.capture, &raw.limits, drive)?;
     let generator_resistance = bench.generator.as_ref().and_then(|g| g.output_resistance);
-    let network_spec = network_spec(&rd, net_raw, drive, generator_resistance)?;
-    let network = Network::from_spec(&network_spec).map_err(|e| network_error(&rd, net_raw, e))?;
+    let network_spec = forms::network_spec(&rd, net_raw, drive, generator_resistance)?;
+    let network =
+        Network::from_spec(&network_spec).map_err(|e| forms::network_error(&rd, net_raw, e))?;
     let output = output_kind_of(&rd, raw.drive.as_ref(), &network_spec, output_kind)?;
 
-    let mut plan = plan_settings(&rd, raw.plan.as_ref())?;
-    settle_metric(&rd, raw.plan.as_ref(), &network, &mut plan)?;
+    let mut plan = planning::plan_settings(&rd, raw.plan.as_ref())?;
+    planning::settle_metric(&rd, raw.plan.as_ref(), &network, &mut plan)?;
     let pulse = match &raw.pulse {
         Some(p) => Some(given_pulse(&rd, p, drive)?),
         None => None,
@@ -229,235 +202,6 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
         pulse,
         bench,
     })
-}
-
-fn network_spec(
-    rd: &Reader,
-    net: &Spanned<RawNetwork>,
-    drive: Signal,
-    generator_resistance: Option<f64>,
-) -> Result<NetworkSpec, ScenarioError> {
-    let n = net.get_ref();
-    let forms: Vec<(&str, Range<usize>)> = [
-        (
-            "time_constants",
-            n.time_constants.as_ref().map(|l| l.span()),
-        ),
-        (
-            "numerator/denominator",
-            n.numerator
-                .as_ref()
-                .or(n.denominator.as_ref())
-                .map(|l| l.span()),
-        ),
-        (
-            "poles/zeros/gain",
-            n.poles
-                .as_ref()
-                .or(n.zeros.as_ref())
-                .map(|l| l.span())
-                .or(n.gain.as_ref().map(|g| g.span())),
-        ),
-        (
-            "parts/input/output",
-            n.parts
-                .as_ref()
-                .map(|l| l.span())
-                .or(n.input.as_ref().map(|i| i.span()))
-                .or(n.output.as_ref().map(|o| o.span()))
-                .or(n.source_resistance.as_ref().map(|o| o.span())),
-        ),
-    ]
-    .into_iter()
-    .filter_map(|(name, span)| span.map(|s| (name, s)))
-    .collect();
-    match forms.len() {
-        0 => {
-            return Err(rd.err(
-                Some(&net.span()),
-                "network",
-                "no network form given: use time_constants, numerator/denominator, poles/zeros/gain, or a netlist (input, output, parts)",
-            ));
-        }
-        1 => {}
-        _ => {
-            let mut sorted = forms.clone();
-            sorted.sort_by_key(|f| f.1.start);
-            return Err(rd.err(
-                Some(&sorted[1].1),
-                &format!("network.{}", sorted[1].0.split('/').next().unwrap_or("")),
-                format!(
-                    "two network forms at once ({} and {}); give exactly one",
-                    sorted[0].0, sorted[1].0
-                ),
-            ));
-        }
-    }
-    if n.parts.is_some() || n.input.is_some() || n.output.is_some() || n.source_resistance.is_some()
-    {
-        let c = circuit::RawCircuit {
-            input: n.input.as_ref(),
-            output: n.output.as_ref(),
-            source_resistance: n.source_resistance.as_ref(),
-            parts: n.parts.as_ref(),
-        };
-        return Ok(NetworkSpec::Netlist(circuit::netlist_spec(
-            rd,
-            &net.span(),
-            c,
-            drive,
-            generator_resistance,
-        )?));
-    }
-    if let Some(l) = &n.time_constants {
-        let taus = rd.list(l, "network.time_constants", Dim::Time)?;
-        if taus.is_empty() {
-            return Err(rd.err(Some(&l.span()), "network.time_constants", "is empty"));
-        }
-        for (i, (t, q)) in taus.iter().zip(l.get_ref()).enumerate() {
-            if *t <= 0.0 {
-                return Err(rd.err(
-                    Some(&q.span()),
-                    &format!("network.time_constants[{i}]"),
-                    format!("time constant must be positive, got {}", rd.shown(q)),
-                ));
-            }
-        }
-        return Ok(NetworkSpec::TimeConstants(taus));
-    }
-    if n.numerator.is_some() || n.denominator.is_some() {
-        let num_l = n.numerator.as_ref().ok_or_else(|| {
-            rd.err(
-                Some(&net.span()),
-                "network.numerator",
-                "denominator given without numerator",
-            )
-        })?;
-        let den_l = n.denominator.as_ref().ok_or_else(|| {
-            rd.err(
-                Some(&num_l.span()),
-                "network.denominator",
-                "numerator given without denominator",
-            )
-        })?;
-        let numerator = rd.list(num_l, "network.numerator", Dim::Number)?;
-        let denominator = rd.list(den_l, "network.denominator", Dim::Number)?;
-        if denominator.iter().all(|&c| c == 0.0) {
-            return Err(rd.err(
-                Some(&den_l.span()),
-                "network.denominator",
-                "is zero (or empty): H(s) would be undefined",
-            ));
-        }
-        if numerator.iter().all(|&c| c == 0.0) {
-            return Err(rd.err(
-                Some(&num_l.span()),
-                "network.numerator",
-                "is zero (or empty): the network has no response to measure",
-            ));
-        }
-        if denominator.len() - denominator.iter().position(|&c| c != 0.0).unwrap_or(0) < 2 {
-            return Err(rd.err(
-                Some(&den_l.span()),
-                "network.denominator",
-                "is a constant: H(s) has no poles, so there is no impulse response to plan for",
-            ));
-        }
-        return Ok(NetworkSpec::Polynomial {
-            numerator,
-            denominator,
-        });
-    }
-    let poles_l = n.poles.as_ref().ok_or_else(|| {
-        rd.err(
-            Some(&net.span()),
-            "network.poles",
-            "zeros/gain given without poles",
-        )
-    })?;
-    let poles = rd.complex_list(poles_l, "network.poles")?;
-    if poles.is_empty() {
-        return Err(rd.err(Some(&poles_l.span()), "network.poles", "is empty"));
-    }
-    let zeros = match &n.zeros {
-        Some(z) => rd.complex_list(z, "network.zeros")?,
-        None => Vec::new(),
-    };
-    let gain = match &n.gain {
-        Some(g) => rd.number(g, "network.gain", Dim::Number)?,
-        None => 1.0,
-    };
-    if gain == 0.0 {
-        let span = n.gain.as_ref().map(|g| g.span());
-        return Err(rd.err(
-            span.as_ref(),
-            "network.gain",
-            "is zero: the network has no response",
-        ));
-    }
-    for (key, list, values) in [
-        ("network.poles", poles_l, &poles),
-        ("network.zeros", n.zeros.as_ref().unwrap_or(poles_l), &zeros),
-    ] {
-        for (i, z) in values.iter().enumerate() {
-            let tol = 1e-12 * z.norm();
-            if z.im != 0.0 && !values.iter().any(|w| (w - z.conj()).norm() <= tol) {
-                let span = list.get_ref().get(i).map(|q| q.span());
-                return Err(rd.err(
-                    span.as_ref(),
-                    &format!("{key}[{i}]"),
-                    format!(
-                        "complex value {}{:+}j has no conjugate partner {}{:+}j in the list; conjugate pairs are required",
-                        z.re, z.im, z.re, -z.im
-                    ),
-                ));
-            }
-        }
-    }
-    Ok(NetworkSpec::ZeroPoleGain { zeros, poles, gain })
-}
-
-fn network_error(rd: &Reader, net: &Spanned<RawNetwork>, e: NetworkError) -> ScenarioError {
-    match e {
-        NetworkError::Netlist(ne) => {
-            // Errors without a part line concern the input or output: point at that key.
-            let n = net.get_ref();
-            let output_names: Vec<String> = match n.output.as_ref().map(|o| o.get_ref()) {
-                Some(circuit::RawOutput::Node(a)) => vec![a.clone()],
-                Some(circuit::RawOutput::Pair(v)) => v.clone(),
-                Some(circuit::RawOutput::Through { current_through }) => {
-                    vec![current_through.clone()]
-                }
-                None => Vec::new(),
-            };
-            let span = if output_names.iter().any(|o| ne.culprit.contains(o.as_str())) {
-                n.output.as_ref().map(|o| o.span())
-            } else if n.input.as_ref().is_some_and(|i| ne.culprit == *i.get_ref()) {
-                n.input.as_ref().map(|i| i.span())
-            } else {
-                None
-            };
-            let key = match &span {
-                // An error with a part's line is that part's (a duplicate name, a bad value…).
-                _ if ne.line.is_some() => "network.parts",
-                Some(_) if n.input.as_ref().is_some_and(|i| ne.culprit == *i.get_ref()) => {
-                    "network.input"
-                }
-                Some(_) => "network.output",
-                None => "network",
-            };
-            ScenarioError {
-                file: rd.file.to_string(),
-                line: ne
-                    .line
-                    .or_else(|| span.as_ref().map(|s| rd.line_of(s)))
-                    .unwrap_or_else(|| rd.line_of(&net.span())),
-                key: format!("{key}: {}", ne.culprit),
-                message: ne.message,
-            }
-        }
-        other => rd.err(Some(&net.span()), "network", other.to_string()),
-    }
 }
 
 /// The output's kind: a netlist says it (a current through a part, else a voltage); the
@@ -572,119 +316,6 @@ fn strip_area_unit(text: &str, kind: Signal) -> &str {
         .iter()
         .find_map(|u| t.strip_suffix(u))
         .map_or(t, str::trim)
-}
-
-/// The default metric for the network when none is given; a reading at 0⁺ is refused for a
-/// network whose h(0⁺) = 0 (it would be compared with zero).
-fn settle_metric(
-    rd: &Reader,
-    p: Option<&RawPlan>,
-    net: &Network,
-    s: &mut PlanSettings,
-) -> Result<(), ScenarioError> {
-    if s.metric_choice == MetricChoice::ByNetwork {
-        s.metric = crate::plan::default_metric(net);
-        return Ok(());
-    }
-    if s.metric != Metric::Window && net.h0_negligible() && net.residues_known {
-        let span = p.and_then(|p| p.metric.as_ref()).map(|m| m.span());
-        return Err(rd.err(
-            span.as_ref(),
-            "plan.metric",
-            format!(
-                "\"{}\" judges the reading at the pulse's end, but h(0⁺) = 0 for this network (its \
-                 response starts from zero, so that reading is compared with ≈ 0 and means nothing). Use \
-                 metric = \"window\" (the error over the whole window, against the peak |h|), or leave \
-                 metric out for that default",
-                s.metric.name()
-            ),
-        ));
-    }
-    Ok(())
-}
-
-fn plan_settings(rd: &Reader, p: Option<&RawPlan>) -> Result<PlanSettings, ScenarioError> {
-    let mut s = PlanSettings::default();
-    let Some(p) = p else { return Ok(s) };
-    if let Some(q) = &p.target_error {
-        let v = rd.fraction(q, "plan.target_error")?;
-        if v <= 0.0 {
-            return Err(rd.err(
-                Some(&q.span()),
-                "plan.target_error",
-                format!("must be positive, got {}", rd.shown(q)),
-            ));
-        }
-        if v >= 1.0 {
-            return Err(rd.err(
-                Some(&q.span()),
-                "plan.target_error",
-                format!(
-                    "{} is not a useful error budget; give e.g. \"1 %\"",
-                    units::percent(v)
-                ),
-            ));
-        }
-        s.target_error = Some(v);
-    }
-    if let Some(m) = &p.metric {
-        s.metric_choice = MetricChoice::Given;
-        s.metric = match m.get_ref().as_str() {
-            "t0" => Metric::T0,
-            "t0-aligned" => Metric::T0Aligned,
-            "window" => Metric::Window,
-            other => {
-                return Err(rd.err(
-                    Some(&m.span()),
-                    "plan.metric",
-                    format!(
-                        "\"{other}\" is not a metric; use \"t0\", \"t0-aligned\" or \"window\""
-                    ),
-                ));
-            }
-        };
-    }
-    if let Some(q) = &p.width_ratio {
-        s.width_ratio = rd.positive(q, "plan.width_ratio", Dim::Number)?;
-    }
-    if let Some(q) = &p.samples {
-        s.samples = Some(rd.positive(q, "plan.samples", Dim::Number)? as usize);
-    }
-    if let Some(q) = &p.seed {
-        let v = rd.number(q, "plan.seed", Dim::Number)?;
-        if v < 0.0 || v.fract() != 0.0 {
-            return Err(rd.err(Some(&q.span()), "plan.seed", "must be a whole number ≥ 0"));
-        }
-        s.seed = v as u64;
-    }
-    if let Some(q) = &p.significance {
-        let v = rd.fraction(q, "plan.significance")?;
-        if !(0.0..1.0).contains(&v) {
-            return Err(rd.err(
-                Some(&q.span()),
-                "plan.significance",
-                "must be between 0 and 100 %",
-            ));
-        }
-        s.significance = v;
-    }
-    if let Some(q) = &p.min_width_ratio {
-        s.min_width_ratio = Some(rd.positive(q, "plan.min_width_ratio", Dim::Number)?);
-    }
-    if let Some(q) = &p.edge_ratio {
-        s.edge_ratio = rd.positive(q, "plan.edge_ratio", Dim::Number)?;
-        if s.edge_ratio <= 1.25 {
-            return Err(rd.err(
-                Some(&q.span()),
-                "plan.edge_ratio",
-                "must exceed 1.25: slower edges leave no flat top at the 50 % width",
-            ));
-        }
-    }
-    if let Some(q) = &p.settle_multiple {
-        s.settle_multiple = rd.positive(q, "plan.settle_multiple", Dim::Number)?;
-    }
-    Ok(s)
 }
 
 fn given_pulse(

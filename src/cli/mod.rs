@@ -1,0 +1,52 @@
+//! The command line: argument definitions ([`args`]), the commands ([`commands`]), what they
+//! print ([`output`]) and the starter scenario ([`starter`]). One consumer of the library.
+
+mod args;
+mod commands;
+mod output;
+mod starter;
+
+pub use args::{Cli, Command, Common};
+pub use output::{InputError, Outcome, Worded};
+pub use starter::starter_scenario;
+
+use anyhow::Result;
+use clap::CommandFactory;
+
+/// Run a parsed command line.
+pub fn run(cli: Cli) -> Result<Outcome> {
+    let quiet = cli.quiet;
+    match cli.command {
+        Command::Plan {
+            file,
+            common,
+            report,
+            out,
+            samples,
+            seed,
+        } => commands::plan(
+            commands::PlanArgs {
+                file,
+                common,
+                report,
+                out,
+                samples,
+                seed,
+            },
+            quiet,
+        ),
+        Command::Assess { file, common } => commands::assess(&file, &common, quiet),
+        Command::Response {
+            file,
+            csv,
+            points,
+            given,
+        } => commands::response(&file, &csv, points, given, quiet),
+        Command::New { name } => starter::new_scenario(&name),
+        Command::Completions { shell } => {
+            let mut cmd = Cli::command();
+            clap_complete::generate(shell, &mut cmd, "pulseplan", &mut std::io::stdout());
+            Ok(Outcome::Clean)
+        }
+    }
+}

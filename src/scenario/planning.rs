@@ -1,0 +1,180 @@
+//! `[plan]`: the budget, the metric (or the network's default), and the planner's ratios, each
+//! within the range where its figures mean something.
+
+use super::reader::{Reader, SQty, ScenarioError};
+use crate::estimate::Metric;
+use crate::network::Network;
+use crate::plan::{MetricChoice, PlanSettings};
+use crate::units::Dim;
+use serde::Deserialize;
+use toml::Spanned;
+
+/// The most Monte Carlo samples a plan draws (each is a full analysis of the circuit).
+pub const MAX_SAMPLES: f64 = 1e6;
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub(crate) struct RawPlan {
+    pub(crate) target_error: Option<SQty>,
+    pub(crate) metric: Option<Spanned<String>>,
+    pub(crate) width_ratio: Option<SQty>,
+    pub(crate) edge_ratio: Option<SQty>,
+    pub(crate) min_width_ratio: Option<SQty>,
+    pub(crate) significance: Option<SQty>,
+    pub(crate) samples: Option<SQty>,
+    pub(crate) seed: Option<SQty>,
+    pub(crate) settle_multiple: Option<SQty>,
+}
+
+/// The default metric for the network when none is given; a reading at 0⁺ is refused for a
+/// network whose h(0⁺) = 0 (it would be compared with zero).
+pub(crate) fn settle_metric(
+    rd: &Reader,
+    p: Option<&RawPlan>,
+    net: &Network,
+    s: &mut PlanSettings,
+) -> Result<(), ScenarioError> {
+    if s.metric_choice == MetricChoice::ByNetwork {
+        s.metric = crate::plan::default_metric(net);
+        return Ok(());
+    }
+    if s.metric != Metric::Window && net.h0_negligible() && net.residues_known {
+        let span = p.and_then(|p| p.metric.as_ref()).map(|m| m.span());
+        return Err(rd.err(
+            span.as_ref(),
+            "plan.metric",
+            format!(
+                "\"{}\" judges the reading at the pulse's end, but h(0⁺) = 0 for this network (its \
+                 response starts from zero, so that reading is compared with ≈ 0 and means nothing). Use \
+                 metric = \"window\" (the error over the whole window, against the peak |h|), or leave \
+                 metric out for that default",
+                s.metric.name()
+            ),
+        ));
+    }
+    Ok(())
+}
+
+/// A plain number within [lo, hi], or an error naming the key and the range.
+fn within(
+    rd: &Reader,
+    q: &SQty,
+    key: &str,
+    (lo, hi): (f64, f64),
+    what: &str,
+) -> Result<f64, ScenarioError> {
+    let v = rd.number(q, key, Dim::Number)?;
+    if !(lo..=hi).contains(&v) {
+        return Err(rd.err(
+            Some(&q.span()),
+            key,
+            format!("{} is outside {lo:e} … {hi:e}: {what}", rd.shown(q)),
+        ));
+    }
+    Ok(v)
+}
+
+/// The budget: a percentage above the rounding level (10⁻¹⁰ %) and below 100 %.
+fn budget(rd: &Reader, q: &SQty) -> Result<f64, ScenarioError> {
+    let v = rd.fraction(q, "plan.target_error")?;
+    if !(1e-12..1.0).contains(&v) {
+        return Err(rd.err(
+            Some(&q.span()),
+            "plan.target_error",
+            format!(
+                "{} is not a budget the figures can hold: give one between 1e-10 % and 100 %, e.g. \"1 %\"",
+                rd.shown(q)
+            ),
+        ));
+    }
+    Ok(v)
+}
+
+fn metric(rd: &Reader, m: &Spanned<String>) -> Result<Metric, ScenarioError> {
+    match m.get_ref().as_str() {
+        "t0" => Ok(Metric::T0),
+        "t0-aligned" => Ok(Metric::T0Aligned),
+        "window" => Ok(Metric::Window),
+        other => Err(rd.err(
+            Some(&m.span()),
+            "plan.metric",
+            format!("\"{other}\" is not a metric; use \"t0\", \"t0-aligned\" or \"window\""),
+        )),
+    }
+}
+
+/// A whole number within [lo, hi].
+fn whole(rd: &Reader, q: &SQty, key: &str, (lo, hi): (f64, f64)) -> Result<f64, ScenarioError> {
+    let v = within(rd, q, key, (lo, hi), "give a whole number in that range")?;
+    if v.fract() != 0.0 {
+        return Err(rd.err(
+            Some(&q.span()),
+            key,
+            format!("{} is not a whole number", rd.shown(q)),
+        ));
+    }
+    Ok(v)
+}
+
+/// `[plan]` with defaults applied. The ratios are held to ranges where the planner's figures
+/// stay finite and meaningful (a width of 10⁻³⁰⁰ of a time scale, a run of 10⁻³²⁴ time
+/// constants, 10⁹ Monte Carlo samples are refused by name).
+pub(crate) fn plan_settings(
+    rd: &Reader,
+    p: Option<&RawPlan>,
+) -> Result<PlanSettings, ScenarioError> {
+    let mut s = PlanSettings::default();
+    let Some(p) = p else { return Ok(s) };
+    if let Some(q) = &p.target_error {
+        s.target_error = Some(budget(rd, q)?);
+    }
+    if let Some(m) = &p.metric {
+        s.metric_choice = MetricChoice::Given;
+        s.metric = metric(rd, m)?;
+    }
+    let ratio = "a ratio of the fastest time scale to the width";
+    if let Some(q) = &p.width_ratio {
+        s.width_ratio = within(rd, q, "plan.width_ratio", (1.0, 1e9), ratio)?;
+    }
+    if let Some(q) = &p.min_width_ratio {
+        s.min_width_ratio = Some(within(rd, q, "plan.min_width_ratio", (1e-3, 1e9), ratio)?);
+    }
+    if let Some(q) = &p.edge_ratio {
+        s.edge_ratio = within(
+            rd,
+            q,
+            "plan.edge_ratio",
+            (1.25, 1e9),
+            "width / 10–90 % edge",
+        )?;
+        if s.edge_ratio <= 1.25 {
+            return Err(rd.err(
+                Some(&q.span()),
+                "plan.edge_ratio",
+                "must exceed 1.25: slower edges leave no flat top at the 50 % width",
+            ));
+        }
+    }
+    if let Some(q) = &p.settle_multiple {
+        let what = "the run in slowest time constants";
+        s.settle_multiple = within(rd, q, "plan.settle_multiple", (1.0, 1e3), what)?;
+    }
+    if let Some(q) = &p.samples {
+        s.samples = Some(whole(rd, q, "plan.samples", (1.0, MAX_SAMPLES))? as usize);
+    }
+    if let Some(q) = &p.seed {
+        s.seed = whole(rd, q, "plan.seed", (0.0, 2f64.powi(53)))? as u64;
+    }
+    if let Some(q) = &p.significance {
+        let v = rd.fraction(q, "plan.significance")?;
+        if !(0.0..1.0).contains(&v) {
+            return Err(rd.err(
+                Some(&q.span()),
+                "plan.significance",
+                "must be between 0 and 100 %",
+            ));
+        }
+        s.significance = v;
+    }
+    Ok(s)
+}
