@@ -7,6 +7,115 @@ use crate::scenario::Scenario;
 use crate::units::{Dim, Signal, eng};
 use std::fmt::Write as _;
 
+/// One section of the sheet: a heading and (label, value) rows.
+fn section(s: &mut String, heading: &str, rows: &[(&str, String)]) {
+    let _ = writeln!(s, "{heading}");
+    for (label, value) in rows {
+        let _ = writeln!(s, "  {label:<24} {value}");
+    }
+    let _ = writeln!(s);
+}
+
+fn generator_rows(sc: &Scenario, b: &BenchPlan) -> Vec<(&'static str, String)> {
+    let p = &b.pulse;
+    let dim = sc.drive.dim();
+    let t = |v: f64| eng(v, Dim::Time);
+    let load = match sc.bench.generator.as_ref().and_then(|g| g.load_setting) {
+        Some(crate::bench::LoadSetting::Fifty) => {
+            "50 Ω (the display shows the voltage across a matched 50 Ω load)"
+        }
+        _ => "high impedance (the display shows the open-circuit voltage)",
+    };
+    let at = match b.amplitude.peak_terminal {
+        Some(term) => format!(
+            "open-circuit level {}, {} at the circuit's input terminals",
+            eng(p.amplitude, dim),
+            eng(term, dim)
+        ),
+        None => format!("{} at the circuit input", eng(p.amplitude, dim)),
+    };
+    let period = b.period.as_ref().map_or(
+        "single shot (the network does not settle)".to_string(),
+        |per| t(per.period),
+    );
+    let burst = if b.period.is_some() {
+        b.capture.averages.max(1)
+    } else {
+        1
+    };
+    vec![
+        ("output load setting", load.to_string()),
+        (
+            "high level",
+            format!(
+                "{}   (display value; {at})",
+                eng(b.amplitude.display_amplitude, dim)
+            ),
+        ),
+        ("low level", "0".into()),
+        ("pulse width (50 %)", t(p.width_50())),
+        ("leading edge (10–90 %)", t(p.rise_10_90())),
+        ("trailing edge (10–90 %)", t(p.fall_10_90())),
+        ("period", period),
+        (
+            "delay",
+            "0 s (trigger the capture on the generator's sync output)".into(),
+        ),
+        ("burst count", burst.to_string()),
+    ]
+}
+
+fn ramp_rows(sc: &Scenario, b: &BenchPlan) -> Vec<(&'static str, String)> {
+    let p = &b.pulse;
+    let t = |v: f64| eng(v, Dim::Time);
+    let mut rows = vec![
+        ("amplitude", eng(p.amplitude, sc.drive.dim())),
+        ("delay", "0 s".into()),
+        ("rise time (0–100 %)", t(p.rise)),
+        ("flat top", t(p.flat)),
+        ("fall time (100–0 %)", t(p.fall)),
+    ];
+    if let Some(per) = &b.period {
+        rows.push(("period", t(per.period)));
+    }
+    rows
+}
+
+fn capture_rows(b: &BenchPlan) -> Vec<(&'static str, String)> {
+    let c = &b.capture;
+    let t = |v: f64| eng(v, Dim::Time);
+    let mut rows = vec![
+        (
+            "sample interval",
+            format!(
+                "{}  ({}Sa/s)",
+                t(c.sample_interval),
+                crate::units::eng_number(c.sample_rate, 4)
+            ),
+        ),
+        (
+            "record length",
+            format!("{}  ({} points)", t(c.record_length), c.points),
+        ),
+        ("pre-trigger", t(c.pre_trigger)),
+        ("trigger", "generator sync output, rising edge".into()),
+        ("averages", c.averages.to_string()),
+    ];
+    if let Some((fine, coarse)) = &c.split {
+        rows.push((
+            "two records",
+            format!(
+                "record 1 every {} for {}, record 2 every {} for {}",
+                t(fine.interval),
+                t(fine.length),
+                t(coarse.interval),
+                t(coarse.length)
+            ),
+        ));
+    }
+    rows
+}
+
 /// The settings sheet in the bench's terms, with both the generator and the ramp views.
 pub fn generator_sheet(sc: &Scenario, out: &PlanOutcome) -> String {
     let b = &out.bench;
@@ -15,134 +124,18 @@ pub fn generator_sheet(sc: &Scenario, out: &PlanOutcome) -> String {
         drive: sc.drive,
         run_basis: &basis,
     };
-    let warnings = &out.warnings;
-    let p = &b.pulse;
-    let dim = sc.drive.dim();
-    let gen_ = sc.bench.generator.clone().unwrap_or_default();
     let mut s = String::new();
     let _ = writeln!(s, "pulseplan generator settings — {}", sc.file);
     if let Some(t) = &sc.title {
         let _ = writeln!(s, "{t}");
     }
     let _ = writeln!(s);
-    let _ = writeln!(s, "GENERATOR VIEW (enter these on a bench pulse generator)");
-    let load = match gen_.load_setting {
-        Some(crate::bench::LoadSetting::Fifty) => {
-            "50 Ω (the display shows the voltage across a matched 50 Ω load)"
-        }
-        _ => "high impedance (the display shows the open-circuit voltage)",
-    };
-    let _ = writeln!(s, "  output load setting      {load}");
-    let at = match b.amplitude.peak_terminal {
-        Some(t) => format!(
-            "open-circuit level {}, {} at the circuit's input terminals",
-            eng(p.amplitude, dim),
-            eng(t, dim)
-        ),
-        None => format!("{} at the circuit input", eng(p.amplitude, dim)),
-    };
-    let _ = writeln!(
-        s,
-        "  high level               {}   (display value; {at})",
-        eng(b.amplitude.display_amplitude, dim)
-    );
-    let _ = writeln!(s, "  low level                0");
-    let _ = writeln!(
-        s,
-        "  pulse width (50 %)       {}",
-        eng(p.width_50(), Dim::Time)
-    );
-    let _ = writeln!(
-        s,
-        "  leading edge (10–90 %)   {}",
-        eng(p.rise_10_90(), Dim::Time)
-    );
-    let _ = writeln!(
-        s,
-        "  trailing edge (10–90 %)  {}",
-        eng(p.fall_10_90(), Dim::Time)
-    );
-    match &b.period {
-        Some(per) => {
-            let _ = writeln!(
-                s,
-                "  period                   {}",
-                eng(per.period, Dim::Time)
-            );
-        }
-        None => {
-            let _ = writeln!(
-                s,
-                "  period                   single shot (the network does not settle)"
-            );
-        }
-    }
-    let _ = writeln!(
-        s,
-        "  delay                    0 s (trigger the capture on the generator's sync output)"
-    );
-    let _ = writeln!(
-        s,
-        "  burst count              {}",
-        if b.period.is_some() {
-            b.capture.averages.max(1)
-        } else {
-            1
-        }
-    );
-    let _ = writeln!(s);
-    let _ = writeln!(
-        s,
-        "RAMP VIEW (simulator pulse sources: full ramps, flat top — do not mix with the above)"
-    );
-    let _ = writeln!(s, "  amplitude                {}", eng(p.amplitude, dim));
-    let _ = writeln!(s, "  delay                    0 s");
-    let _ = writeln!(s, "  rise time (0–100 %)      {}", eng(p.rise, Dim::Time));
-    let _ = writeln!(s, "  flat top                 {}", eng(p.flat, Dim::Time));
-    let _ = writeln!(s, "  fall time (100–0 %)      {}", eng(p.fall, Dim::Time));
-    if let Some(per) = &b.period {
-        let _ = writeln!(
-            s,
-            "  period                   {}",
-            eng(per.period, Dim::Time)
-        );
-    }
-    let _ = writeln!(s);
-    let _ = writeln!(s, "CAPTURE");
-    let c = &b.capture;
-    let _ = writeln!(
-        s,
-        "  sample interval          {}  ({}Sa/s)",
-        eng(c.sample_interval, Dim::Time),
-        crate::units::eng_number(c.sample_rate, 4)
-    );
-    let _ = writeln!(
-        s,
-        "  record length            {}  ({} points)",
-        eng(c.record_length, Dim::Time),
-        c.points
-    );
-    let _ = writeln!(
-        s,
-        "  pre-trigger              {}",
-        eng(c.pre_trigger, Dim::Time)
-    );
-    let _ = writeln!(
-        s,
-        "  trigger                  generator sync output, rising edge"
-    );
-    let _ = writeln!(s, "  averages                 {}", c.averages);
-    if let Some((fine, coarse)) = &c.split {
-        let _ = writeln!(
-            s,
-            "  memory too small: record 1 at {} for {}, record 2 at {} for {}",
-            eng(fine.interval, Dim::Time),
-            eng(fine.length, Dim::Time),
-            eng(coarse.interval, Dim::Time),
-            eng(coarse.length, Dim::Time)
-        );
-    }
-    let _ = writeln!(s);
+    let gen_head = "GENERATOR VIEW (enter these on a bench pulse generator)";
+    section(&mut s, gen_head, &generator_rows(sc, b));
+    let ramp_head =
+        "RAMP VIEW (simulator pulse sources: full ramps, flat top — do not mix with the above)";
+    section(&mut s, ramp_head, &ramp_rows(sc, b));
+    section(&mut s, "CAPTURE", &capture_rows(b));
     let _ = writeln!(
         s,
         "READING: h(t) ≈ y(t) / area, area = {} (multiply the captured output by {})",
@@ -152,8 +145,17 @@ pub fn generator_sheet(sc: &Scenario, out: &PlanOutcome) -> String {
     for n in &b.notes {
         let _ = writeln!(s, "NOTE: {}", words::note_text(n, sc.drive));
     }
+    cautions(&mut s, sc, b);
+    for w in &out.warnings {
+        let _ = writeln!(s, "WARNING [{}]: {}", w.code(), words::warning_text(w, cx));
+    }
+    s
+}
+
+fn cautions(s: &mut String, sc: &Scenario, b: &BenchPlan) {
     let hazardous = sc.drive == Signal::Voltage
-        && (p.amplitude.abs() > HAZARD_VOLTS || b.amplitude.display_amplitude.abs() > HAZARD_VOLTS);
+        && (b.pulse.amplitude.abs() > HAZARD_VOLTS
+            || b.amplitude.display_amplitude.abs() > HAZARD_VOLTS);
     let _ = writeln!(s);
     if hazardous {
         let _ = writeln!(
@@ -166,10 +168,6 @@ pub fn generator_sheet(sc: &Scenario, out: &PlanOutcome) -> String {
         s,
         "CAUTION: check that the circuit under test tolerates this pulse (ratings, linear range) before applying it."
     );
-    for w in warnings {
-        let _ = writeln!(s, "WARNING [{}]: {}", w.code(), words::warning_text(w, cx));
-    }
-    s
 }
 
 /// One period of the stimulus as piecewise-linear (time, value) points with full-ramp
