@@ -7,6 +7,7 @@
 pub mod bench;
 pub mod cli;
 pub mod estimate;
+pub mod measure;
 pub mod netlist;
 pub mod network;
 pub mod plan;
