@@ -64,6 +64,8 @@ pub enum Command {
         #[arg(long)]
         planned: bool,
     },
+    /// Recover h(t) from a capture: remove the pulse, fit the modes, compare with the model.
+    Recover(crate::recover_cli::RecoverArgs),
     /// Write a commented starter scenario NAME.toml in the current folder (never overwrites).
     New {
         /// Scenario name (the file is NAME.toml).
@@ -480,6 +482,7 @@ pub fn run(cli: Cli) -> Result<Outcome> {
                 !warnings.is_empty(),
             )
         }
+        Command::Recover(args) => crate::recover_cli::run(&args, quiet),
         Command::New { name } => new_scenario(&name),
         Command::Completions { shell } => {
             let mut cmd = Cli::command();

@@ -12,6 +12,7 @@ pub mod netlist;
 pub mod network;
 pub mod plan;
 pub mod pulse;
+pub mod recover_cli;
 pub mod report;
 pub mod response;
 pub mod scenario;

@@ -207,7 +207,7 @@ mod tests {
             breakpoints: vec![(0.0, 0.0), (0.0, 1.0 / w), (w, 1.0 / w), (w, 0.0)],
             source: PulseSource::Stated,
         };
-        let exact = (1.0 - (-w as f64).exp()) / w;
+        let exact = (1.0 - (-w).exp()) / w;
         assert!((p.transform(C::new(-1.0, 0.0)).re - exact).abs() < 1e-14);
     }
 

@@ -106,7 +106,8 @@ pub fn erfc(x: f64) -> f64 {
 /// (Wilson & Hilferty 1931).
 pub fn chi2_sf(x: f64, k: f64) -> f64 {
     if k <= 0.0 {
-        return if x > 0.0 { 0.0 } else { 1.0 };
+        // No degrees of freedom: any misfit is fitted exactly.
+        return 1.0;
     }
     if x <= 0.0 {
         return 1.0;
