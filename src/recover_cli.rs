@@ -393,9 +393,9 @@ fn pulse_section(s: &mut String, rec: &Recovery, sc: &Scenario) {
     let t = |v: f64| units::eng(v, Dim::Time);
     let _ = writeln!(
         s,
-        "  amplitude {}   area {} {}   50 % duration {}   rise 10–90 % {}   fall 90–10 % {}",
+        "  amplitude {}   area {}{}   50 % duration {}   rise 10–90 % {}   fall 90–10 % {}",
         units::eng(amp, ad),
-        units::eng_plain(p.area, 4),
+        units::eng_number(p.area, 4),
         sc.drive.area_unit(),
         t(dur),
         t(rise),

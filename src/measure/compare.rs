@@ -48,7 +48,7 @@ pub struct Difference {
     pub std: f64,
     /// The model's value.
     pub model: f64,
-    /// (measured − model)/model, when the model's value is not zero.
+    /// (measured − model)/|model|, when the model's value is not zero (same sign as z).
     pub relative: Option<f64>,
     /// std/|model|.
     pub relative_std: Option<f64>,
@@ -182,7 +182,7 @@ fn difference(
         measured,
         std,
         model,
-        relative: nonzero.then(|| (measured - model) / model),
+        relative: nonzero.then(|| (measured - model) / model.abs()),
         relative_std: nonzero.then(|| std / model.abs()),
         z: (measured - model) / std,
     })

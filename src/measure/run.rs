@@ -60,9 +60,21 @@ pub fn recover_with_progress(
     };
     check_tail(&span)?;
     let (sigma0, pre_noise) = noise(&span);
-    let drift = s.drift.unwrap_or_else(|| drift_significant(&span, sigma0));
-    let rows = fitting::rows(&span, sigma0, drift);
-    let (fit, candidates, pencil) = fit_stage(&rows, s, &pulse, progress)?;
+    let drift_pre = s.drift.unwrap_or_else(|| drift_significant(&span, sigma0));
+    let mut rows = fitting::rows(&span, sigma0, drift_pre);
+    let (mut fit, mut candidates, mut pencil) = fit_stage(&rows, s, &pulse, progress)?;
+    if s.drift.is_none() && !drift_pre {
+        // The pre-trigger alone may be too short to show a drift: let the whole record decide
+        // by the information criterion.
+        let with = fitting::rows(&span, sigma0, true);
+        if let Ok(alt) = fit_stage(&with, s, &pulse, progress)
+            && bic(&alt.0, &with) < bic(&fit, &rows)
+        {
+            rows = with;
+            (fit, candidates, pencil) = alt;
+        }
+    }
+    let drift = rows.drift;
     let peak = rows.y.iter().map(|y| y.abs()).fold(0.0, f64::max);
     let (fit, scale, noise_info) = settle_noise(fit, sigma0, pre_noise, NOISE_FLOOR * peak);
     let prop = modes::propagate(&fit, &pulse, drift);
@@ -265,6 +277,11 @@ fn drift_significant(span: &Span, sigma: f64) -> bool {
 }
 
 type Fitted = (Fit, Vec<fitting::CandidateSummary>, Option<Pencil>);
+
+/// Bayesian information criterion of a fit on its rows (Schwarz 1978).
+fn bic(fit: &Fit, rows: &Rows) -> f64 {
+    fit.chi2 + (fit.theta.len() + fit.c.len()) as f64 * (rows.len() as f64).ln()
+}
 
 fn fit_stage(
     rows: &Rows,

@@ -172,11 +172,13 @@ def circuit_modes(parts, n_in, n_out):
     return modes, float(np.real(direct))
 
 
-def lag_lead(r1=47e3, c1=22e-9, r2=10e3):
+def lag_lead(r1=47e3, c1=22e-9, r2=10e3, rs=50.0):
     """The passive lag-lead of scenarios/passive-lag-lead.toml: R1 ∥ C1 from in to out,
-    R2 from out to ground."""
-    parts = [("R", "in", "out", r1), ("C", "in", "out", c1), ("R", "out", "gnd", r2)]
-    return circuit_modes(parts, "in", "out")
+    R2 from out to ground, driven by a source (the generator's open-circuit voltage) behind
+    its output resistance rs."""
+    parts = [("R", "src", "in", rs), ("R", "in", "out", r1), ("C", "in", "out", c1),
+             ("R", "out", "gnd", r2)]
+    return circuit_modes(parts, "src", "out")
 
 
 # ---------------------------------------------------------------- capture making
