@@ -255,6 +255,8 @@ pub struct MeasuredPulse {
     pub amplitude: f64,
     /// Noise σ of the stimulus channel.
     pub noise: f64,
+    /// Noise σ of each breakpoint (σ/√k when k samples were averaged into one).
+    pub breakpoint_noise: f64,
     /// Capture time of the leading edge's 50 % instant, s.
     pub rise_50_capture_s: f64,
     /// Pulse duration (between the 50 % instants), s.
@@ -315,7 +317,10 @@ fn crossing(t: &[f64], v: &[f64], i: usize, level: f64) -> f64 {
 pub fn measure_pulse(time: &[f64], ch: &Channel) -> Result<MeasuredPulse, (f64, f64)> {
     let v = &ch.values;
     let noise = stats::noise_from_differences(&v[..v.len().min(100_000)]);
-    let (base, top) = state_levels(v).ok_or((0.0, noise))?;
+    // The histogram of at most a million evenly spaced samples has the same modes.
+    let stride = v.len().div_ceil(1_000_000).max(1);
+    let sub: Vec<f64> = v.iter().step_by(stride).copied().collect();
+    let (base, top) = state_levels(&sub).ok_or((0.0, noise))?;
     let amplitude = top - base;
     if amplitude <= MIN_STIMULUS_SNR * noise {
         return Err((amplitude, noise));
@@ -341,12 +346,13 @@ pub fn measure_pulse(time: &[f64], ch: &Channel) -> Result<MeasuredPulse, (f64, 
     let rise = crossing(t, v, i90, level(0.9)) - crossing(t, v, i10, level(0.1));
     let fall = crossing(t, v, f10, level(0.1)) - crossing(t, v, f90, level(0.9));
     let zero = rise50 - 0.5 * rise / crate::pulse::TEN_NINETY;
-    let pulse = stimulus_breakpoints(t, v, base, (i10, f10), (rise, fall), zero);
+    let (pulse, k) = stimulus_breakpoints(t, v, base, (i10, f10), (rise, fall), zero);
     Ok(MeasuredPulse {
         base,
         top,
         amplitude,
         noise,
+        breakpoint_noise: noise / (k as f64).sqrt(),
         rise_50_capture_s: rise50,
         duration_50_s: crossing(t, v, f50, level(0.5)) - rise50,
         rise_10_90_s: rise,
@@ -365,7 +371,7 @@ fn stimulus_breakpoints(
     (i10, f10): (usize, usize),
     (rise, fall): (f64, f64),
     zero: f64,
-) -> AppliedPulse {
+) -> (AppliedPulse, usize) {
     let guard_before = t[i10] - rise / crate::pulse::TEN_NINETY;
     let guard_after = t[f10] + fall / crate::pulse::TEN_NINETY;
     let a = t[..i10]
@@ -394,10 +400,11 @@ fn stimulus_breakpoints(
     if let Some(l) = bp.last_mut() {
         l.1 = 0.0;
     }
-    AppliedPulse {
+    let pulse = AppliedPulse {
         breakpoints: bp,
         source: PulseSource::Measured,
-    }
+    };
+    (pulse, k)
 }
 
 #[cfg(test)]

@@ -10,10 +10,17 @@ use super::varpro::{self, Fit, PoleKind, Rows};
 use num_complex::Complex64 as C;
 use serde::Serialize;
 
-/// Most rows after the pulse in the fit (longer uniform records are reduced to block means).
-pub const MAX_TAIL_ROWS: usize = 100_000;
-/// Most rows before the pulse.
-pub const MAX_PRE_ROWS: usize = 20_000;
+/// Rows after the pulse while choosing the order (longer uniform records are reduced to
+/// block means).
+pub const SELECT_TAIL_ROWS: usize = 20_000;
+/// Most rows after the pulse in any fit.
+pub const MAX_TAIL_ROWS: usize = 200_000;
+/// Most rows before the pulse (they carry only the baseline).
+pub const MAX_PRE_ROWS: usize = 5_000;
+/// A block may span at most this fraction of the fastest fitted time scale 1/|p|: the block
+/// mean then keeps practically all the information of its samples (common practice, no
+/// source).
+pub const BLOCK_SHARE: f64 = 0.05;
 /// Points of the pencil's series (the pencil matrix is a third of this wide).
 const PENCIL_POINTS: usize = 400;
 /// Bins used to find how far the signal reaches above the noise.
@@ -61,8 +68,9 @@ impl Span<'_> {
 }
 
 /// Build the fit rows. Uniform records are reduced to block means (never across a clipped
-/// sample or the pulse) so that at most [`MAX_TAIL_ROWS`] + [`MAX_PRE_ROWS`] rows remain.
-pub fn rows(span: &Span, sigma: f64, drift: bool) -> Rows {
+/// sample or the pulse) so that at most `max_tail` (≤ [`MAX_TAIL_ROWS`]) rows follow the
+/// pulse and [`MAX_PRE_ROWS`] precede it.
+pub fn rows(span: &Span, sigma: f64, drift: bool, max_tail: usize) -> Rows {
     let (pre, tail) = span.counts();
     let step = span.cap.uniform_step.unwrap_or(0.0);
     let uniform = span.cap.uniform_step.is_some();
@@ -87,7 +95,7 @@ pub fn rows(span: &Span, sigma: f64, drift: bool) -> Rows {
         &mut rows,
         span,
         span.first_tail()..n_all,
-        block(tail, MAX_TAIL_ROWS),
+        block(tail, max_tail.clamp(1, MAX_TAIL_ROWS)),
     );
     rows
 }
@@ -189,9 +197,40 @@ pub fn run_pencil(rows: &Rows, forced: Option<usize>) -> Option<(Pencil, f64)> {
         .rposition(|v| v.abs() > 4.0 * noise)
         .map_or(total, |k| (k + 1) as f64 * width);
     let extent = (1.5 * reach).clamp(20.0 * width, total);
-    let (series, step, per) = bin_tail(rows, base, extent, PENCIL_POINTS);
+    let (series, step, per) = grouped_tail(rows, base, extent)
+        .unwrap_or_else(|| bin_tail(rows, base, extent, PENCIL_POINTS));
     let noise = rows.sigma / per.max(1.0).sqrt();
     pencil::pencil(&series, step, noise, forced).map(|p| (p, step))
+}
+
+/// When the tail rows are equal, back-to-back blocks (a uniform record without gaps), whole
+/// groups of them make an exactly uniform series (a mean of exponentials over equal groups
+/// is again a sum of the same exponentials); `None` otherwise.
+fn grouped_tail(rows: &Rows, base: f64, extent: f64) -> Option<(Vec<f64>, f64, f64)> {
+    let first = rows.t.iter().position(|&t| t >= rows.end)?;
+    let n0 = rows.n[first];
+    let block = rows.step * n0 as f64;
+    if block.is_nan() || block <= 0.0 {
+        return None;
+    }
+    let count = ((extent / block).floor() as usize).min(rows.len() - first);
+    let tail = first..first + count;
+    let regular = tail.clone().all(|i| {
+        rows.n[i] == n0
+            && (rows.t[i] - rows.t[first] - (i - first) as f64 * block).abs()
+                <= 0.01 * rows.step.max(block * 1e-9)
+    });
+    if !regular || count < PENCIL_POINTS.min(24) {
+        return None;
+    }
+    let g = count.div_ceil(PENCIL_POINTS).max(1);
+    let series: Vec<f64> = (0..count / g)
+        .map(|k| {
+            let s: f64 = (0..g).map(|j| rows.y[first + k * g + j]).sum();
+            s / g as f64 - base
+        })
+        .collect();
+    Some((series, g as f64 * block, (g * n0 as usize) as f64))
 }
 
 /// How a start was obtained.

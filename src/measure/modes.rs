@@ -196,6 +196,36 @@ impl Propagated {
     }
 }
 
+/// ∂outputs/∂xᵢ for the interior breakpoint values xᵢ of a measured pulse: P(s) changes by
+/// hᵢ·e^(s(T−tᵢ)) per unit of xᵢ (hᵢ the hat function's area, (tᵢ₊₁ − tᵢ₋₁)/2), so
+/// ∂rₖ/∂xᵢ = −rₖ·hᵢ e^(pₖ(T−tᵢ))/P(pₖ); only the residues and h(0⁺) depend on the pulse.
+fn stimulus_gradient(set: &ModeSet, pulse: &AppliedPulse) -> DMatrix<f64> {
+    let bp = &pulse.breakpoints;
+    let n_out = set.poles.len() * PER_MODE + 3;
+    let inner = bp.len().saturating_sub(2);
+    let mut g = DMatrix::zeros(n_out, inner);
+    let end = pulse.end();
+    for (k, ((kind, p), r)) in set
+        .kinds
+        .iter()
+        .zip(&set.poles)
+        .zip(&set.residues)
+        .enumerate()
+    {
+        let factor = -r / pulse.transform(*p);
+        for i in 0..inner {
+            let (a, t, b) = (bp[i].0, bp[i + 1].0, bp[i + 2].0);
+            let dr = factor * (0.5 * (b - a)) * (p * (end - t)).exp();
+            let base = k * PER_MODE;
+            g[(base + 5, i)] = dr.re;
+            g[(base + 6, i)] = dr.im;
+            g[(base + 7, i)] = (r.conj() * dr).re / r.norm().max(f64::MIN_POSITIVE);
+            g[(n_out - 3, i)] += weight(*kind) * dr.re;
+        }
+    }
+    g
+}
+
 /// Central-difference Jacobian of `f` at β, step 10⁻³ of each parameter's standard
 /// uncertainty (or of its size when that is zero).
 fn numeric_gradient(
@@ -224,13 +254,23 @@ fn numeric_gradient(
     g
 }
 
-/// Propagate the fit's covariance to the modes' outputs.
-pub fn propagate(fit: &Fit, pulse: &AppliedPulse, drift: bool) -> Propagated {
+/// Propagate the fit's covariance to the modes' outputs; with a measured pulse whose samples
+/// carry noise σₓ (`stimulus_noise`), add what that noise does to P(pₖ) and so to the residues.
+pub fn propagate(
+    fit: &Fit,
+    pulse: &AppliedPulse,
+    drift: bool,
+    stimulus_noise: Option<f64>,
+) -> Propagated {
     let beta: Vec<f64> = fit.theta.iter().chain(&fit.c).copied().collect();
     let f = |b: &[f64]| outputs(&mode_set(&fit.kinds, b, pulse, drift));
     let gradient = numeric_gradient(&beta, &fit.cov, &f);
-    let cov = &gradient * &fit.cov * gradient.transpose();
+    let mut cov = &gradient * &fit.cov * gradient.transpose();
     let set = mode_set(&fit.kinds, &beta, pulse, drift);
+    if let Some(sx) = stimulus_noise {
+        let g = stimulus_gradient(&set, pulse);
+        cov += (&g * g.transpose()) * (sx * sx);
+    }
     Propagated {
         values: outputs(&set),
         set,

@@ -61,12 +61,12 @@ pub fn recover_with_progress(
     check_tail(&span)?;
     let (sigma0, pre_noise) = noise(&span);
     let drift_pre = s.drift.unwrap_or_else(|| drift_significant(&span, sigma0));
-    let mut rows = fitting::rows(&span, sigma0, drift_pre);
+    let mut rows = fitting::rows(&span, sigma0, drift_pre, fitting::SELECT_TAIL_ROWS);
     let (mut fit, mut candidates, mut pencil) = fit_stage(&rows, s, &pulse, progress)?;
     if s.drift.is_none() && !drift_pre {
         // The pre-trigger alone may be too short to show a drift: let the whole record decide
         // by the information criterion.
-        let with = fitting::rows(&span, sigma0, true);
+        let with = fitting::rows(&span, sigma0, true, fitting::SELECT_TAIL_ROWS);
         if let Ok(alt) = fit_stage(&with, s, &pulse, progress)
             && bic(&alt.0, &with) < bic(&fit, &rows)
         {
@@ -74,10 +74,14 @@ pub fn recover_with_progress(
             (fit, candidates, pencil) = alt;
         }
     }
+    if let Some((r, f)) = refine_blocks(&span, &rows, &fit) {
+        (rows, fit) = (r, f);
+    }
     let drift = rows.drift;
     let peak = rows.y.iter().map(|y| y.abs()).fold(0.0, f64::max);
     let (fit, scale, noise_info) = settle_noise(fit, sigma0, pre_noise, NOISE_FLOOR * peak);
-    let prop = modes::propagate(&fit, &pulse, drift);
+    let stim_noise = measured.as_ref().map(|m| m.breakpoint_noise);
+    let prop = modes::propagate(&fit, &pulse, drift, stim_noise);
     let mut curves = Curves {
         modes: prop,
         zero: tz.capture_time_s,
@@ -274,6 +278,23 @@ fn drift_significant(span: &Span, sigma: f64) -> bool {
     }
     let slope = sxy / sxx;
     (slope / (sigma / sxx.sqrt())).abs() > 4.0
+}
+
+/// When the blocks span more than [`fitting::BLOCK_SHARE`] of the fastest fitted time
+/// scale, refit on shorter blocks from the chosen poles.
+fn refine_blocks(span: &Span, rows: &Rows, fit: &Fit) -> Option<(Rows, Fit)> {
+    let step = span.cap.uniform_step?;
+    let pmax = fit.poles().iter().map(|p| p.norm()).fold(0.0, f64::max);
+    let block = *rows.n.iter().max()? as f64;
+    if block * step * pmax <= fitting::BLOCK_SHARE {
+        return None;
+    }
+    let (_, tail) = span.counts();
+    let want = (fitting::BLOCK_SHARE / (step * pmax)).floor().max(1.0);
+    let max_tail = ((tail as f64 / want).ceil() as usize).min(fitting::MAX_TAIL_ROWS);
+    let fine = fitting::rows(span, rows.sigma, rows.drift, max_tail);
+    let refit = super::varpro::fit(&fine, &fit.kinds, &fit.poles())?;
+    Some((fine, refit))
 }
 
 type Fitted = (Fit, Vec<fitting::CandidateSummary>, Option<Pencil>);
