@@ -458,7 +458,9 @@ fn fit_section(s: &mut String, rec: &Recovery, sc: &Scenario) {
         "Modal fit (matrix pencil, then variable projection weighted by σ)"
     );
     if let Some(p) = &f.pencil {
-        let gap = p.gap.map_or("—".into(), |g| format!("{g:.3}×"));
+        let gap = p
+            .gap
+            .map_or("—".into(), |g| format!("{}×", units::eng_plain(g, 3)));
         let _ = writeln!(
             s,
             "  pencil order {} (MDL {}), singular-value gap {gap}",
@@ -484,6 +486,11 @@ fn fit_section(s: &mut String, rec: &Recovery, sc: &Scenario) {
         "  residual whiteness: Ljung–Box Q = {:.1} over {} lags, p = {:.3}",
         f.whiteness.0, f.whiteness.1, f.whiteness.2
     );
+    modes_text(s, rec, sc);
+}
+
+/// The fitted modes, h(0⁺) and D.
+fn modes_text(s: &mut String, rec: &Recovery, sc: &Scenario) {
     let hu = h_unit(sc);
     let _ = writeln!(s, "\nFitted modes (± is the 95 % interval)");
     for (k, m) in rec.modes.iter().enumerate() {
@@ -621,17 +628,25 @@ fn comparison_section(
 ) {
     let _ = writeln!(s, "Against the model ({})", sc.network.form.name());
     for d in &c.differences {
-        let mode = d.mode.map_or(String::new(), |k| format!("mode {} ", k + 1));
+        let mode = d.mode.map_or(" ".repeat(7), |k| format!("mode {} ", k + 1));
         let rel = match (d.relative, d.relative_std) {
             (Some(r), Some(u)) => format!("{} ± {}", percent(r), units::percent_unsigned(1.96 * u)),
             _ => "—".into(),
         };
+        let show = |v: f64| match d.quantity {
+            Quantity::TimeConstant => eng_sig(v, Dim::Time, 6),
+            Quantity::NaturalFrequency => eng_sig(v, Dim::AngularFrequency, 6),
+            Quantity::ResidueRe | Quantity::ResidueIm | Quantity::H0 => {
+                format!("{} {}", units::eng_plain(v, 6), h_unit(sc))
+            }
+            Quantity::Damping | Quantity::Direct => units::eng_plain(v, 6),
+        };
         let _ = writeln!(
             s,
-            "  {mode}{:<26} measured {:>12}  model {:>12}  {rel:>24}  z = {:+.2}",
+            "  {mode}{:<26} measured {:>14}  model {:>14}  {rel:>24}  z = {:+.2}",
             quantity_name(d.quantity),
-            units::eng_plain(d.measured, 6),
-            units::eng_plain(d.model, 6),
+            show(d.measured),
+            show(d.model),
             d.z
         );
     }
@@ -751,9 +766,14 @@ fn parts_text(s: &mut String, a: &measure::parts::Attribution) {
 
 /// A warning in words.
 pub fn word(w: &Warning, sc: &Scenario) -> String {
-    let t = |v: f64| units::eng(v, Dim::Time);
     let _ = sc;
-    match w {
+    word_record(w).unwrap_or_else(|| word_fit(w))
+}
+
+/// Warnings about the record and the pulse.
+fn word_record(w: &Warning) -> Option<String> {
+    let t = |v: f64| units::eng(v, Dim::Time);
+    let text = match w {
         Warning::Clipped { samples, runs } => format!(
             "{samples} samples in {runs} run(s) sit at the record's extreme code (clipped); they were left out of every fit — reduce the amplitude or widen the range"
         ),
@@ -771,6 +791,27 @@ pub fn word(w: &Warning, sc: &Scenario) -> String {
         Warning::NoiseNotWhite { lag1, limit } => format!(
             "the pre-trigger noise is correlated (lag-1 autocorrelation {lag1:+.3}, beyond ±{limit:.3}): the intervals assume white noise and may be too narrow"
         ),
+        Warning::TimeZeroFromPlan { capture_time_s } => format!(
+            "time zero taken from the planned pre-trigger ({} capture time); give --t0 or a stimulus channel if the capture was set differently",
+            t(*capture_time_s)
+        ),
+        Warning::TimeZeroAssumed { capture_time_s } => format!(
+            "nothing located the pulse; time zero is the first sample ({}); give --t0 or a stimulus channel",
+            t(*capture_time_s)
+        ),
+        Warning::PulseDiffers { area_relative } => format!(
+            "the measured pulse's area differs from the stated one by {}: the measured pulse was used",
+            percent(*area_relative)
+        ),
+        _ => return None,
+    };
+    Some(text)
+}
+
+/// Warnings about the fit and the model.
+fn word_fit(w: &Warning) -> String {
+    let t = |v: f64| units::eng(v, Dim::Time);
+    match w {
         Warning::ResidualNotWhite { q, lags, p_value } => format!(
             "the fit's residual is not white (Ljung–Box Q = {q:.1} over {lags} lags, p = {p_value:.2e}): a mode may be missing or the baseline may drift"
         ),
@@ -813,24 +854,13 @@ pub fn word(w: &Warning, sc: &Scenario) -> String {
         Warning::FitNotConverged { iterations } => format!(
             "the pole refinement stopped at its bound of {iterations} iterations without meeting its test"
         ),
-        Warning::TimeZeroFromPlan { capture_time_s } => format!(
-            "time zero taken from the planned pre-trigger ({} capture time); give --t0 or a stimulus channel if the capture was set differently",
-            t(*capture_time_s)
-        ),
-        Warning::TimeZeroAssumed { capture_time_s } => format!(
-            "nothing located the pulse; time zero is the first sample ({}); give --t0 or a stimulus channel",
-            t(*capture_time_s)
-        ),
-        Warning::PulseDiffers { area_relative } => format!(
-            "the measured pulse's area differs from the stated one by {}: the measured pulse was used",
-            percent(*area_relative)
-        ),
         Warning::PulseSamplesMisfit { chi2_reduced } => format!(
             "the samples during the pulse do not fit the modes plus a direct term (χ²/dof {chi2_reduced:.2}): a mode faster than the pulse may be hidden"
         ),
         Warning::ModelInconsistent { z } => format!(
             "the capture is inconsistent with the model (largest difference {z:.1} standard uncertainties)"
         ),
+        _ => String::new(),
     }
 }
 
