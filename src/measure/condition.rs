@@ -274,9 +274,10 @@ pub struct MeasuredPulse {
 }
 
 /// State levels by the histogram mode method (IEEE Std 181-2011, 5.2.1): the modes of the
-/// lower and upper halves of the histogram, refined as the mean of the samples in the modal
-/// bin and its neighbours.
-fn state_levels(v: &[f64]) -> Option<(f64, f64)> {
+/// lower and upper halves of the histogram, each refined as the mean of the samples within
+/// 4 noise σ of it (iterated: a window centred on the estimate converges on the level's mean,
+/// where a window fixed to the bin grid would be biased by up to half a bin).
+fn state_levels(v: &[f64], noise: f64) -> Option<(f64, f64)> {
     let (lo, hi) = v
         .iter()
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
@@ -294,11 +295,20 @@ fn state_levels(v: &[f64]) -> Option<(f64, f64)> {
         r.max_by_key(|&k| (hist[k], std::cmp::Reverse(k)))
             .unwrap_or(0)
     };
+    let half = (4.0 * noise).max(1.5 * width);
     let refine = |k: usize| {
-        let (a, b) = (k.saturating_sub(1), (k + 1).min(bins - 1));
-        let sel = v.iter().filter(|&&x| (a..=b).contains(&bin(x)));
-        let (s, n) = sel.fold((0.0, 0usize), |(s, n), &x| (s + x, n + 1));
-        s / n.max(1) as f64
+        let mut m = lo + (k as f64 + 0.5) * width;
+        for _ in 0..4 {
+            let (s, n) = v
+                .iter()
+                .filter(|&&x| (x - m).abs() < half)
+                .fold((0.0, 0usize), |(s, n), &x| (s + x, n + 1));
+            if n == 0 {
+                break;
+            }
+            m = s / n as f64;
+        }
+        m
     };
     Some((refine(mode(0..bins / 2)), refine(mode(bins / 2..bins))))
 }
@@ -320,7 +330,7 @@ pub fn measure_pulse(time: &[f64], ch: &Channel) -> Result<MeasuredPulse, (f64, 
     // The histogram of at most a million evenly spaced samples has the same modes.
     let stride = v.len().div_ceil(1_000_000).max(1);
     let sub: Vec<f64> = v.iter().step_by(stride).copied().collect();
-    let (base, top) = state_levels(&sub).ok_or((0.0, noise))?;
+    let (base, top) = state_levels(&sub, noise).ok_or((0.0, noise))?;
     let amplitude = top - base;
     if amplitude <= MIN_STIMULUS_SNR * noise {
         return Err((amplitude, noise));
