@@ -133,9 +133,19 @@ fn fast_decimal(f: &[u8], mark: u8) -> Option<f64> {
         if f[i] != b'e' && f[i] != b'E' {
             return None;
         }
-        let rest = std::str::from_utf8(&f[i + 1..]).ok()?;
-        let e: i32 = rest.parse().ok()?;
-        exp = exp.checked_add(e)?;
+        let rest = &f[i + 1..];
+        let (sign, digits) = match rest.first()? {
+            b'-' => (-1, &rest[1..]),
+            b'+' => (1, &rest[1..]),
+            _ => (1, rest),
+        };
+        if digits.is_empty() || digits.len() > 4 || !digits.iter().all(u8::is_ascii_digit) {
+            return None;
+        }
+        let e = digits
+            .iter()
+            .fold(0i32, |a, &d| a * 10 + i32::from(d - b'0'));
+        exp += sign * e;
     }
     let mf = m as f64;
     let v = if exp >= 0 {
