@@ -4,7 +4,7 @@
 //! Modules in their import order, lowest first; a module names only modules above it in this
 //! list ([`units`] and [`notice`] are shared by all):
 //! [`units`] → [`notice`] → [`pulse`] → [`netlist`] → [`network`] → [`tolerance`] →
-//! [`response`] → [`estimate`] → [`plan`] → [`bench`] → [`scenario`] (TOML into the settings
+//! [`response`] → [`estimate`] → [`plan`] → [`bench`] → [`measure`] (reading a test back) → [`scenario`] (TOML into the settings
 //! types above) → [`pipeline`] (the stages in order) → [`report`] (text, HTML, JSON, CSV,
 //! figures) → [`cli`].
 
@@ -27,6 +27,8 @@ pub mod estimate;
 pub mod plan;
 
 pub mod bench;
+
+pub mod measure;
 
 pub mod scenario;
 

@@ -8,6 +8,9 @@ cargo test
 cargo build --release
 python3 tests/reference/check_core.py --quiet
 python3 tests/reference/check_circuits.py --quiet
+# Recovery from synthetic captures (tests/recovery/gen_capture.py): Cramér–Rao spread and
+# coverage, the three readings, a part off its value, file layouts, bad files.
+python3 tests/recovery/check_recovery.py --quiet
 # Browser check of the HTML report: headless Chromium renders report.html and each figure.
 # CI runs as root and installs Chromium when it is missing; elsewhere the check needs it present.
 if [ ! -x /usr/bin/chromium ] && [ "$(id -u)" = "0" ]; then

@@ -59,6 +59,8 @@ pub enum Command {
         #[arg(long)]
         given: bool,
     },
+    /// Recover h(t) from a capture: remove the pulse, fit the modes, compare with the model.
+    Recover(super::recover::RecoverArgs),
     /// Write a commented starter scenario NAME.toml in the current folder (never overwrites).
     New {
         /// Scenario name (the file is NAME.toml).

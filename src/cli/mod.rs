@@ -4,10 +4,12 @@
 mod args;
 mod commands;
 mod output;
+mod recover;
 mod starter;
 
 pub use args::{Cli, Command, Common};
 pub use output::{InputError, Outcome, Worded};
+pub use recover::{RecoverArgs, settings_from_scenario};
 pub use starter::starter_scenario;
 
 use anyhow::Result;
@@ -42,6 +44,7 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             points,
             given,
         } => commands::response(&file, &csv, points, given, quiet),
+        Command::Recover(args) => recover::run(&args, quiet),
         Command::New { name } => starter::new_scenario(&name),
         Command::Completions { shell } => {
             let mut cmd = Cli::command();

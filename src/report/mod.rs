@@ -7,6 +7,7 @@ pub mod figures;
 pub mod html;
 mod json;
 pub mod markup;
+pub mod recovery;
 pub mod sheet;
 mod tables;
 mod text;
