@@ -185,6 +185,10 @@ fn parallel_map<T: Send>(n: usize, f: &(dyn Fn(usize) -> T + Sync)) -> Vec<T> {
     })
 }
 
+fn analyse_net(spec: &NetlistSpec) -> Result<Network, NetlistError> {
+    netlist::analyse(spec).map(Network::from_circuit)
+}
+
 /// Number of toleranced parts in a netlist.
 pub fn toleranced_parts(spec: &NetlistSpec) -> usize {
     spec.parts
@@ -220,7 +224,7 @@ pub fn analyse(
         .iter()
         .map(|&i| spec.parts[i].tolerance.unwrap_or(0.0))
         .collect();
-    let nominal_net = netlist::analyse(spec)?;
+    let nominal_net = analyse_net(spec)?;
     let nominal = figures(&nominal_net, threshold);
 
     let use_corners = samples.is_none() && toleranced.len() <= MAX_CORNER_PARTS;
@@ -245,7 +249,7 @@ pub fn analyse(
     };
     let done = std::sync::atomic::AtomicUsize::new(0);
     let results: Vec<Option<(Figures, usize)>> = parallel_map(count, &|case| {
-        let net = netlist::analyse(&with_factors(spec, &toleranced, &factors_of(case))).ok();
+        let net = analyse_net(&with_factors(spec, &toleranced, &factors_of(case))).ok();
         let n = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(n);
         net.map(|net| (figures(&net, threshold), case))
@@ -272,10 +276,8 @@ pub fn analyse(
         }
     }
     let net_of = |case: Option<(f64, usize)>| -> Network {
-        case.and_then(|(_, c)| {
-            netlist::analyse(&with_factors(spec, &toleranced, &factors_of(c))).ok()
-        })
-        .unwrap_or_else(|| nominal_net.clone())
+        case.and_then(|(_, c)| analyse_net(&with_factors(spec, &toleranced, &factors_of(c))).ok())
+            .unwrap_or_else(|| nominal_net.clone())
     };
     let fastest = net_of(fastest_case);
     let slowest = net_of(slowest_case);
@@ -295,7 +297,7 @@ pub fn analyse(
                 let fig = |f: f64| {
                     let mut s = spec.clone();
                     s.parts[i] = scaled(&spec.parts[i], f);
-                    netlist::analyse(&s).ok().map(|n| figures(&n, threshold))
+                    analyse_net(&s).ok().map(|n| figures(&n, threshold))
                 };
                 let (up, down) = (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP));
                 let (up, down) = match (up, down) {

@@ -2,6 +2,7 @@
 
 use std::collections::HashMap;
 
+use super::label::Label;
 use super::{NetlistError, NetlistSpec, Output, PartKind, Stimulus, is_ground};
 
 /// The validated circuit: node and part indices.
@@ -545,11 +546,10 @@ fn topology(spec: &NetlistSpec, circuit: &Circuit) -> Result<(), NetlistError> {
 pub(crate) fn explain_singular(
     spec: &NetlistSpec,
     circuit: &Circuit,
-    labels: &[super::mna::Label],
+    labels: &[Label],
     right: &[f64],
     left: &[f64],
 ) -> NetlistError {
-    use super::mna::Label;
     let describe = |l: Label| match l {
         Label::Node(k) => format!("the voltage at node '{}'", circuit.nodes[k]),
         Label::Current(j) => format!("the current in '{}'", spec.parts[j].name),

@@ -19,11 +19,16 @@
 //!    differentiated; derivatives of the input are tracked exactly and finally removed from
 //!    the state equation by a change of state. A remaining derivative in the output means an
 //!    improper network function.
-//! 4. Modes come from the real Schur form of `A`: residues of simple poles from right and
-//!    left eigenvectors of the quasi-triangular factor; clusters of numerically
-//!    indistinguishable eigenvalues (Jordan blocks, e.g. buffered identical sections) get
-//!    their Laurent coefficients from contour integrals of the resolvent, evaluated by the
-//!    trapezoid rule on a circle around the cluster.
+//! 4. Modes come from the dense eigen-decomposition of `A` (faer): residues of simple poles
+//!    from right and left eigenvectors; clusters of numerically indistinguishable eigenvalues
+//!    (Jordan blocks, e.g. buffered identical sections) get their Laurent coefficients from
+//!    contour integrals of the resolvent, evaluated by the trapezoid rule on a circle around
+//!    the cluster.
+//!
+//! Circuits of resistors and capacitors alone, observed as a node voltage, skip steps 2–4:
+//! their nodal pencil is symmetric-definite and [`symmetric`](self) solves it as a symmetric
+//! eigenproblem. The result is the stage's own [`CircuitFunction`]; the `network` stage
+//! above turns it into a `Network`.
 //!
 //! # Conventions
 //!
@@ -50,16 +55,21 @@
 //!   limit `A(s) = 2π·gbw/s`.
 
 mod check;
+mod dense;
+mod function;
+mod label;
 mod mna;
 mod modes;
 mod polish;
 mod reduce;
+mod symmetric;
 #[cfg(test)]
 mod tests;
+mod zeros;
 
 use nalgebra::{DMatrix, DVector};
 
-use crate::network::Network;
+pub use function::{CircuitFunction, CircuitMode};
 
 /// The quantity the network function maps the stimulus to.
 #[derive(Debug, Clone, PartialEq)]
@@ -260,32 +270,44 @@ pub fn state_space(spec: &NetlistSpec) -> Result<StateSpace, NetlistError> {
     Ok(reduced.ss)
 }
 
-/// Analyse a netlist into modes: poles from the eigenvalues of the reduced `A`, residues
-/// (Laurent coefficients) from its eigenvectors or, for clusters, from contour integrals.
+/// Analyse a netlist into modes: poles and residues (Laurent coefficients) from the
+/// symmetric eigenproblem of an RC circuit, or from the eigen-decomposition of the reduced
+/// state matrix (contour integrals for clusters) otherwise.
 ///
 /// Modes whose residues are negligible (uncontrollable or unobservable energy stores, e.g.
 /// an island of parts the stimulus never reaches) are dropped: they do not appear in H(s).
-pub fn analyse(spec: &NetlistSpec) -> Result<Network, NetlistError> {
-    let (reduced, desc) = reduce_spec(spec)?;
+pub fn analyse(spec: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
+    let circuit = check::validate(spec)?;
     let out = check::output_name(&spec.output);
-    let mut net = modes::network(&reduced.ss, reduced.improper)
-        .map_err(|m| NetlistError::new(None, &out, m))?;
-    polish::polish(&desc, &mut net);
-    if net.modes.is_empty() {
+    let f = match symmetric::analyse(spec, &circuit) {
+        Some(f) => f,
+        None => general(spec, &circuit)?,
+    };
+    if f.modes.is_empty() {
         return Err(NetlistError::new(
             None,
             &out,
             "H(s) has no poles: the output does not depend on any energy store",
         ));
     }
-    if net.modes.iter().all(|m| m.pole.norm() == 0.0) {
+    if f.modes.iter().all(|m| m.pole.norm() == 0.0) {
         return Err(NetlistError::new(
             None,
             &out,
             "every pole is at s = 0: there is no time scale to size a pulse against",
         ));
     }
-    Ok(net)
+    Ok(f)
+}
+
+/// The general path: descriptor system, reduction, eigen-decomposition, polish.
+fn general(spec: &NetlistSpec, circuit: &check::Circuit) -> Result<CircuitFunction, NetlistError> {
+    let (reduced, desc) = reduce_checked(spec, circuit)?;
+    let out = check::output_name(&spec.output);
+    let mut f = modes::function(&reduced.ss, reduced.improper)
+        .map_err(|m| NetlistError::new(None, &out, m))?;
+    polish::polish(&desc, &mut f);
+    Ok(f)
 }
 
 /// Reduced state space plus the polynomial part beyond D (`improper[k−1]` multiplies s^k).
@@ -296,10 +318,17 @@ pub(crate) struct Reduced {
 
 fn reduce_spec(spec: &NetlistSpec) -> Result<(Reduced, mna::Descriptor), NetlistError> {
     let circuit = check::validate(spec)?;
-    let desc = mna::assemble(spec, &circuit);
+    reduce_checked(spec, &circuit)
+}
+
+fn reduce_checked(
+    spec: &NetlistSpec,
+    circuit: &check::Circuit,
+) -> Result<(Reduced, mna::Descriptor), NetlistError> {
+    let desc = mna::assemble(spec, circuit);
     let reduced = reduce::reduce(&desc).map_err(|e| match e {
         reduce::ReduceError::Singular { right, left } => {
-            check::explain_singular(spec, &circuit, &desc.labels, &right, &left)
+            check::explain_singular(spec, circuit, &desc.labels, &right, &left)
         }
         reduce::ReduceError::Numerical(m) => {
             NetlistError::new(None, &check::output_name(&spec.output), m)
