@@ -582,6 +582,47 @@ impl FreeResponse {
             .sum()
     }
 
+    /// For each mode term, its natural frequency |p| and the time after the anchor beyond
+    /// which its envelope w·e^(Re p·τ)·Σ|q_k|τ^k stays below `floor` (0 for a term that never
+    /// reaches it; infinite for one that does not decay). Past τ₀ = (degree)/|Re p| every
+    /// factor τ^k·e^(Re p·τ) decreases, so the crossing found there is final; before τ₀ the
+    /// term is counted alive (a conservative answer).
+    pub fn lifetimes(&self, floor: f64) -> Vec<(f64, f64)> {
+        self.terms
+            .iter()
+            .map(|term| {
+                let sigma = term.p.re;
+                let env = |tau: f64| {
+                    let poly: f64 = term.q.iter().rev().fold(0.0, |acc, q| acc * tau + q.norm());
+                    term.weight * (sigma * tau).exp() * poly
+                };
+                let life = if sigma >= 0.0 {
+                    f64::INFINITY
+                } else {
+                    let tau0 = (term.q.len() - 1) as f64 / -sigma;
+                    if env(tau0) <= floor {
+                        tau0
+                    } else {
+                        let (mut lo, mut hi) = (tau0, tau0 + 1.0 / -sigma);
+                        for _ in 0..64 {
+                            if env(hi) <= floor {
+                                break;
+                            }
+                            lo = hi;
+                            hi += hi - tau0;
+                        }
+                        for _ in 0..60 {
+                            let mid = 0.5 * (lo + hi);
+                            if env(mid) > floor { lo = mid } else { hi = mid }
+                        }
+                        hi
+                    }
+                };
+                (term.p.norm(), life)
+            })
+            .collect()
+    }
+
     /// Values on the uniform grid t₀ + k·dt (t₀ ≥ anchor), by running exponentials: per point
     /// and mode one complex multiply, in four independent lanes so the multiplies overlap, on
     /// chunks that stay in cache; the exponential is re-anchored exactly every
