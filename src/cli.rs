@@ -452,6 +452,12 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             if points < 2 {
                 bail!(InputError("--points must be at least 2".into()));
             }
+            if points > crate::response::MAX_GRID_POINTS {
+                bail!(InputError(format!(
+                    "--points {points} is above the maximum of {} (the table holds six numbers a point)",
+                    crate::response::MAX_GRID_POINTS
+                )));
+            }
             let (pulse, run, warnings) = match (&sc.pulse, planned) {
                 (Some(g), false) => {
                     let out = crate::plan::assess(&sc, &g.pulse, g.run);
