@@ -10,6 +10,8 @@ pub const MAX_CORNER_PARTS: usize = 10;
 /// Above this many toleranced parts, sensitivities come from the Monte Carlo sample
 /// (regression slopes) instead of two extra analyses per part.
 pub const MAX_DIFFERENCED_PARTS: usize = 40;
+/// Relative difference below which two cases' time scales are the same (rounding).
+const TIE: f64 = 1e-12;
 /// Relative step of the central differences behind the sensitivities.
 const SENSITIVITY_STEP: f64 = 1e-4;
 
@@ -247,9 +249,11 @@ pub fn analyse(
             })
             .collect()
     };
+    let validated = netlist::Validated::new(spec)?;
     let done = std::sync::atomic::AtomicUsize::new(0);
     let results: Vec<Option<(Figures, usize)>> = parallel_map(count, &|case| {
-        let net = analyse_net(&with_factors(spec, &toleranced, &factors_of(case))).ok();
+        let variant = with_factors(spec, &toleranced, &factors_of(case));
+        let net = validated.analyse(&variant).map(Network::from_circuit).ok();
         let n = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(n);
         net.map(|net| (figures(&net, threshold), case))
@@ -266,10 +270,14 @@ pub fn analyse(
                 tau_fast.add(f.tau_fast);
                 tau_slow.add(f.tau_slow);
                 h0.add(f.h0);
-                if fastest_case.is_none_or(|(t, _)| f.tau_fast < t) {
+                // Cases equal to rounding (parts that do not move the figure) are ties: the
+                // first case keeps them, so rounding noise cannot pick the extreme network.
+                if fastest_case.is_none_or(|(t, _)| f.tau_fast < t * (1.0 - TIE)) {
                     fastest_case = Some((f.tau_fast, *case));
                 }
-                if f.tau_slow.is_finite() && slowest_case.is_none_or(|(t, _)| f.tau_slow > t) {
+                if f.tau_slow.is_finite()
+                    && slowest_case.is_none_or(|(t, _)| f.tau_slow > t * (1.0 + TIE))
+                {
                     slowest_case = Some((f.tau_slow, *case));
                 }
             }

@@ -5,6 +5,28 @@ use faer::Mat;
 use nalgebra::DMatrix;
 use num_complex::Complex64;
 
+/// Order from which the few large decompositions (the tridiagonal eigensolver, the
+/// triangular solves of the symmetric reduction) run on every core.
+const PARALLEL_FROM: usize = 256;
+
+/// faer's parallelism for a problem of order n. Small problems stay on the calling thread:
+/// tolerance runs already spread their cases over the cores, and handing 10 × 10 matrices
+/// to a thread pool costs more than it saves.
+pub(crate) fn par_for(n: usize) -> faer::Par {
+    if n >= PARALLEL_FROM {
+        faer::Par::rayon(0)
+    } else {
+        faer::Par::Seq
+    }
+}
+
+/// Keep faer's high-level calls (eigen, SVD, LU, Cholesky) on the calling thread; the large
+/// steps that profit from threads pass [`par_for`] explicitly.
+pub(crate) fn sequential_by_default() {
+    static ONCE: std::sync::Once = std::sync::Once::new();
+    ONCE.call_once(|| faer::set_global_parallelism(faer::Par::Seq));
+}
+
 /// A copy of a nalgebra matrix as a faer matrix.
 pub(crate) fn to_faer(m: &DMatrix<f64>) -> Mat<f64> {
     Mat::from_fn(m.nrows(), m.ncols(), |i, j| m[(i, j)])

@@ -277,11 +277,12 @@ pub fn state_space(spec: &NetlistSpec) -> Result<StateSpace, NetlistError> {
 /// Modes whose residues are negligible (uncontrollable or unobservable energy stores, e.g.
 /// an island of parts the stimulus never reaches) are dropped: they do not appear in H(s).
 pub fn analyse(spec: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
+    dense::sequential_by_default();
     let circuit = check::validate(spec)?;
     let out = check::output_name(&spec.output);
     let f = match symmetric::analyse(spec, &circuit) {
         Some(f) => f,
-        None => general(spec, &circuit)?,
+        None => general(spec, &circuit, true)?,
     };
     if f.modes.is_empty() {
         return Err(NetlistError::new(
@@ -300,14 +301,57 @@ pub fn analyse(spec: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
     Ok(f)
 }
 
-/// The general path: descriptor system, reduction, eigen-decomposition, polish.
-fn general(spec: &NetlistSpec, circuit: &check::Circuit) -> Result<CircuitFunction, NetlistError> {
+/// The general path: descriptor system, reduction, eigen-decomposition, and (when
+/// `polished`) the descriptor polish of residues, D and h(0⁺).
+fn general(
+    spec: &NetlistSpec,
+    circuit: &check::Circuit,
+    polished: bool,
+) -> Result<CircuitFunction, NetlistError> {
     let (reduced, desc) = reduce_checked(spec, circuit)?;
     let out = check::output_name(&spec.output);
     let mut f = modes::function(&reduced.ss, reduced.improper)
         .map_err(|m| NetlistError::new(None, &out, m))?;
-    polish::polish(&desc, &mut f);
+    if polished {
+        polish::polish(&desc, &mut f);
+    }
     Ok(f)
+}
+
+/// A netlist validated once, for analysing many variants that differ only in part values
+/// (tolerance corners and samples): the checks are not repeated, and the descriptor polish
+/// (which moves residues in their last digits, not poles) is skipped.
+pub struct Validated {
+    circuit: check::Circuit,
+    parts: usize,
+}
+
+impl Validated {
+    /// Validate the netlist (every diagnostic of [`analyse`]).
+    pub fn new(spec: &NetlistSpec) -> Result<Validated, NetlistError> {
+        dense::sequential_by_default();
+        Ok(Validated {
+            circuit: check::validate(spec)?,
+            parts: spec.parts.len(),
+        })
+    }
+
+    /// Analyse a variant of the validated netlist: the same parts, nodes and output, with
+    /// other values (each still valid: positive R, C, L; |k| < 1). A variant whose part
+    /// count differs is validated afresh.
+    pub fn analyse(&self, variant: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
+        if variant.parts.len() != self.parts {
+            return analyse(variant);
+        }
+        let f = match symmetric::analyse(variant, &self.circuit) {
+            Some(f) => f,
+            None => general(variant, &self.circuit, false)?,
+        };
+        if f.modes.is_empty() || f.modes.iter().all(|m| m.pole.norm() == 0.0) {
+            return analyse(variant);
+        }
+        Ok(f)
+    }
 }
 
 /// Reduced state space plus the polynomial part beyond D (`improper[k−1]` multiplies s^k).

@@ -297,7 +297,7 @@ fn reduce_store(c: &Condensed) -> Option<Symmetric> {
         Factor::Full(l) => {
             // S = L⁻¹ (L⁻¹ Ĝ)ᵀ, Ĝ symmetric.
             let mut y = c.ghat.clone();
-            let par = faer::get_global_parallelism();
+            let par = super::dense::par_for(nk);
             faer::linalg::triangular_solve::solve_lower_triangular_in_place(
                 l.as_ref(),
                 y.as_mut(),
@@ -395,7 +395,7 @@ fn tridiagonal_eigen(s: &Mat<f64>, order: &[usize]) -> Option<(Vec<f64>, Mat<f64
     }
     let mut w = faer::diag::Diag::<f64>::zeros(n);
     let mut u = Mat::<f64>::zeros(n, n);
-    let par = faer::get_global_parallelism();
+    let par = super::dense::par_for(n);
     let params = Default::default();
     let need = evd::self_adjoint_evd_scratch::<f64>(n, evd::ComputeEigenvectors::Yes, par, params);
     let mut buf = faer::dyn_stack::MemBuffer::try_new(need).ok()?;
