@@ -280,7 +280,7 @@ pub fn analyse(spec: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
     dense::sequential_by_default();
     let circuit = check::validate(spec)?;
     let out = check::output_name(&spec.output);
-    let f = match symmetric::analyse(spec, &circuit) {
+    let f = match symmetric::analyse(spec, &circuit, true) {
         Some(f) => f,
         None => general(spec, &circuit, true)?,
     };
@@ -301,26 +301,27 @@ pub fn analyse(spec: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
     Ok(f)
 }
 
-/// The general path: descriptor system, reduction, eigen-decomposition, and (when
-/// `polished`) the descriptor polish of residues, D and h(0⁺).
+/// The general path: descriptor system, reduction, eigen-decomposition, and (when `full`)
+/// the zeros and the descriptor polish of residues, D and h(0⁺).
 fn general(
     spec: &NetlistSpec,
     circuit: &check::Circuit,
-    polished: bool,
+    full: bool,
 ) -> Result<CircuitFunction, NetlistError> {
     let (reduced, desc) = reduce_checked(spec, circuit)?;
     let out = check::output_name(&spec.output);
-    let mut f = modes::function(&reduced.ss, reduced.improper)
+    let mut f = modes::function(&reduced.ss, reduced.improper, full)
         .map_err(|m| NetlistError::new(None, &out, m))?;
-    if polished {
+    if full {
         polish::polish(&desc, &mut f);
     }
     Ok(f)
 }
 
 /// A netlist validated once, for analysing many variants that differ only in part values
-/// (tolerance corners and samples): the checks are not repeated, and the descriptor polish
-/// (which moves residues in their last digits, not poles) is skipped.
+/// (tolerance corners and samples): the checks are not repeated, and what a case does not
+/// need is skipped: the zeros (display only) and the descriptor polish (which moves residues
+/// in their last digits, not poles).
 pub struct Validated {
     circuit: check::Circuit,
     parts: usize,
@@ -343,7 +344,7 @@ impl Validated {
         if variant.parts.len() != self.parts {
             return analyse(variant);
         }
-        let f = match symmetric::analyse(variant, &self.circuit) {
+        let f = match symmetric::analyse(variant, &self.circuit, false) {
             Some(f) => f,
             None => general(variant, &self.circuit, false)?,
         };

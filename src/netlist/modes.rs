@@ -18,8 +18,13 @@ type C = Complex64;
 
 const ZERO: C = C::new(0.0, 0.0);
 
-/// Analyse a (balanced) state space into its network function.
-pub(crate) fn function(ss: &StateSpace, improper: Vec<f64>) -> Result<CircuitFunction, String> {
+/// Analyse a (balanced) state space into its network function; the zeros (for display) only
+/// when `with_zeros`.
+pub(crate) fn function(
+    ss: &StateSpace,
+    improper: Vec<f64>,
+    with_zeros: bool,
+) -> Result<CircuitFunction, String> {
     let n = ss.order();
     // h(0⁺) = C·B; a sum that cancels to rounding level (relative degree ≥ 2) is exactly 0.
     let h0 = ss.c.dot(&ss.b);
@@ -35,7 +40,11 @@ pub(crate) fn function(ss: &StateSpace, improper: Vec<f64>) -> Result<CircuitFun
         modes,
         direct: ss.d,
         improper,
-        zeros: super::zeros::zeros(ss),
+        zeros: if with_zeros {
+            super::zeros::zeros(ss)
+        } else {
+            Vec::new()
+        },
         zero_scale: ss.a.norm(),
         h0_ivt,
     })

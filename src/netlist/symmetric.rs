@@ -42,13 +42,22 @@ struct Nodal {
     capacitors: Vec<(Option<usize>, Option<usize>, f64)>,
 }
 
-/// The analysis, or `None` when the circuit is not of this kind (the general path runs).
-pub(crate) fn analyse(spec: &NetlistSpec, circuit: &Circuit) -> Option<CircuitFunction> {
+/// The analysis, or `None` when the circuit is not of this kind (the general path runs);
+/// the zeros (for display) only when `with_zeros`.
+pub(crate) fn analyse(
+    spec: &NetlistSpec,
+    circuit: &Circuit,
+    with_zeros: bool,
+) -> Option<CircuitFunction> {
     let nodal = stamp(spec, circuit)?;
     let cond = condense(&nodal)?;
     let sys = reduce_store(&cond)?;
     let (lam, q) = eigen(&sys.s)?;
-    finish(&nodal, &cond, &sys, lam, &q)
+    let mut f = finish(&nodal, &cond, &sys, lam, &q)?;
+    if with_zeros {
+        f.zeros = zeros(&sys);
+    }
+    Some(f)
 }
 
 fn stamp(spec: &NetlistSpec, circuit: &Circuit) -> Option<Nodal> {
@@ -480,7 +489,7 @@ fn finish(
         modes,
         direct: sys.d,
         improper: Vec::new(),
-        zeros: zeros(sys),
+        zeros: Vec::new(),
         zero_scale: s_norm,
         h0_ivt: if h0.abs() <= 1e-11 * h0_scale {
             0.0
