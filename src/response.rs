@@ -85,6 +85,26 @@ fn series_table(z: C, amax: usize) -> Vec<[C; 3]> {
     t
 }
 
+/// E(1, 1)(z) = (e^z − 1)/z exactly as `series_table` (|z| ≤ 2) and `recurrence_table`
+/// (|z| ≥ 6) compute it for one node, without the table; exp is skipped where it underflows.
+fn phi1(z: C) -> C {
+    if z.norm() <= SERIES_RADIUS {
+        let mut term = C::new(inv_factorial(1), 0.0);
+        let mut sum = term;
+        for n in 0..400 {
+            let nf = n as f64;
+            term *= z * ((nf + 1.0) / ((nf + 1.0) * (nf + 2.0)));
+            sum += term;
+            if term.norm() <= 1e-18 * sum.norm() {
+                break;
+            }
+        }
+        return sum;
+    }
+    let ez = if z.re < UNDERFLOW { ZERO } else { z.exp() };
+    (ez * inv_factorial(0) - C::new(1.0, 0.0)) / z
+}
+
 fn recurrence_table(z: C, amax: usize) -> Vec<[C; 3]> {
     let ez = z.exp();
     let mut t = vec![[ZERO; 3]; amax + 1];
@@ -444,6 +464,18 @@ impl FreeResponse {
     /// ∫ value² dt from the anchor over a span T, exactly: the Gram sum over pairs of modes with
     /// ∫₀ᵀ τⁿ e^(sτ) dτ = Tⁿ⁺¹·n!·E(n+1, 1)(sT) (divided differences of exp, as in `dd_table`).
     pub fn integral_square(&self, span: f64) -> f64 {
+        // ∫₀ᵀ e^(sτ) dτ = T·E(1, 1)(sT) for a pair of simple modes, evaluated as `dd_table` does
+        // (power series for |z| ≤ 2, (e^z − 1)/z from 6 on) without building the table.
+        let simple = |s: C, c: C| -> C {
+            let z = s * span;
+            let r = z.norm();
+            let e11 = if r <= SERIES_RADIUS || r >= 6.0 {
+                phi1(z)
+            } else {
+                dd_table(z, 1)[1][1]
+            };
+            c * e11 * (span * factorial(0))
+        };
         let integral = |s: C, poly: &[C]| -> C {
             let t = dd_table(s * span, poly.len());
             let mut acc = ZERO;
@@ -458,6 +490,12 @@ impl FreeResponse {
         for (i, a) in self.terms.iter().enumerate() {
             for b in &self.terms[i..] {
                 let factor = if std::ptr::eq(a, b) { 1.0 } else { 2.0 };
+                if a.q.len() == 1 && b.q.len() == 1 {
+                    let v = simple(a.p + b.p, a.q[0] * b.q[0])
+                        + simple(a.p + b.p.conj(), a.q[0] * b.q[0].conj());
+                    total += factor * a.weight * b.weight * 0.5 * v.re;
+                    continue;
+                }
                 let prod = poly_mul(&a.q, &b.q);
                 let conj_b: Vec<C> = b.q.iter().map(|c| c.conj()).collect();
                 let prod_c = poly_mul(&a.q, &conj_b);
