@@ -54,30 +54,199 @@ pub struct IdealShape {
     pub settle: Option<f64>,
 }
 
-/// Times to examine h on: geometric near the origin plus uniform over the span.
-fn shape_grid(net: &Network, span: f64) -> Vec<f64> {
-    let fast = net.tau_fast();
-    let max_im = net
-        .modes
-        .iter()
-        .map(|m| m.pole.im.abs())
-        .fold(0.0, f64::max);
-    let dt_osc = if max_im > 0.0 {
-        2.0 * std::f64::consts::PI / max_im / 24.0
-    } else {
-        f64::INFINITY
-    };
-    let n_uniform = ((span / dt_osc).ceil() as usize).clamp(4000, 400_000);
-    let mut t: Vec<f64> = (0..=n_uniform)
-        .map(|k| span * k as f64 / n_uniform as f64)
+/// Grid points per time scale 1/|p| of the fastest mode still alive (a quarter radian of
+/// the fastest oscillation between samples, finer than 24 points a period).
+const POINTS_PER_SCALE: f64 = 4.0;
+/// Largest number of samples of h (the spacing widens beyond it).
+pub const MAX_SHAPE_POINTS: usize = 1_000_000;
+/// Modes whose envelope is below this fraction of the peak no longer set the grid spacing.
+const ALIVE_FRACTION: f64 = 1e-12;
+
+/// One sample of h and h′.
+#[derive(Clone, Copy)]
+struct Sample {
+    t: f64,
+    h: f64,
+    dh: f64,
+}
+
+/// Sample times on [t0, t1]: each step is 1/(POINTS_PER_SCALE·ω(t)), ω(t) the largest |p| of
+/// the modes whose envelope is still above the floor at t (their lifetimes from
+/// [`FreeResponse::lifetimes`]). Fast modes die early, so the grid is fine only where
+/// they matter: a few points per mode and per e-fold instead of a uniform scan.
+fn adaptive_times(life: &[(f64, f64)], t0: f64, t1: f64) -> Vec<f64> {
+    // Suffix maxima of |p| over the modes sorted by lifetime: ω(t) in one binary search.
+    let mut by_life: Vec<(f64, f64)> = life.iter().map(|&(w, l)| (l, w)).collect();
+    by_life.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut suffix = vec![0.0f64; by_life.len() + 1];
+    for i in (0..by_life.len()).rev() {
+        suffix[i] = suffix[i + 1].max(by_life[i].1);
+    }
+    let omega = |t: f64| suffix[by_life.partition_point(|x| x.0 <= t)];
+    let floor_step = (t1 - t0) / MAX_SHAPE_POINTS as f64;
+    let mut stretch = 1.0;
+    for _ in 0..32 {
+        let mut times = vec![t0];
+        let mut t = t0;
+        while t < t1 && times.len() <= MAX_SHAPE_POINTS {
+            let w = omega(t);
+            let step = if w > 0.0 {
+                stretch / (POINTS_PER_SCALE * w)
+            } else {
+                t1 - t
+            };
+            t = (t + step.max(floor_step)).min(t1);
+            times.push(t);
+        }
+        if times.len() <= MAX_SHAPE_POINTS + 1 {
+            return times;
+        }
+        stretch *= 2.0;
+    }
+    vec![t0, t1]
+}
+
+/// A lower estimate of the peak of |h| (h at t = 0 and at 64 log-spaced times), only to set
+/// the floor below which a mode no longer matters for the grid.
+fn rough_peak(h: &FreeResponse, net: &Network, span: f64) -> f64 {
+    let start = (net.tau_fast() * 0.1).min(span / 10.0);
+    let ratio = (span / start).powf(1.0 / 63.0);
+    (0..64)
+        .map(|k| h.at(start * ratio.powi(k)).abs())
+        .fold(h.at(0.0).abs(), f64::max)
+}
+
+/// Bisection on h′ in [a, b] (h′(a), h′(b) of opposite signs): the extremum of h inside.
+fn extremum(dh: &FreeResponse, h: &FreeResponse, a: Sample, b: Sample) -> Sample {
+    let (mut lo, mut hi) = (a.t, b.t);
+    let s_lo = a.dh.signum();
+    for _ in 0..200 {
+        let mid = 0.5 * (lo + hi);
+        if mid <= lo || mid >= hi {
+            break;
+        }
+        if dh.at(mid).signum() == s_lo {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    let t = 0.5 * (lo + hi);
+    Sample {
+        t,
+        h: h.at(t),
+        dh: 0.0,
+    }
+}
+
+/// Sample h and h′ on [t0, t1] and add each interior extremum of h that could matter (an
+/// interval where h′ changes sign and |h| at either end is within a factor 2 of `level`).
+fn scan(
+    h: &FreeResponse,
+    dh: &FreeResponse,
+    life: &[(f64, f64)],
+    t0: f64,
+    t1: f64,
+) -> (Vec<Sample>, Vec<Sample>) {
+    let samples: Vec<Sample> = adaptive_times(life, t0, t1)
+        .into_iter()
+        .map(|t| Sample {
+            t,
+            h: h.at(t),
+            dh: dh.at(t),
+        })
         .collect();
-    let start = (fast * 1e-4).min(span / 10.0);
-    let n_geo = 3000;
-    let ratio = (span / start).powf(1.0 / n_geo as f64);
-    t.extend((0..=n_geo).map(|k| start * ratio.powi(k)));
-    t.sort_by(f64::total_cmp);
-    t.dedup();
-    t
+    let level = samples.iter().map(|s| s.h.abs()).fold(0.0, f64::max) * SETTLE_FRACTION;
+    let extrema = samples
+        .windows(2)
+        .filter(|w| w[0].dh * w[1].dh < 0.0 && w[0].h.abs().max(w[1].h.abs()) >= 0.5 * level)
+        .map(|w| extremum(dh, h, w[0], w[1]))
+        .collect();
+    (samples, extrema)
+}
+
+impl IdealShape {
+    /// Examine h(t): peak and settling time, from the modes. h and h′ are sampled on a grid
+    /// set by the modes still alive (see `adaptive_times`); extrema are the roots of h′ found
+    /// by bisection where it changes sign; the span ends where the envelope bound
+    /// Σ|r|·t^(k−1)·e^(Re p·t) is below 0.1 % of the peak (stable networks), or at 10 slowest
+    /// time scales otherwise.
+    pub fn of(net: &Network, h: &FreeResponse) -> IdealShape {
+        let h0 = net.h0_plus();
+        let base = net
+            .tau_slow()
+            .unwrap_or_else(|| 1.0 / min_nonzero_freq(net).max(f64::MIN_POSITIVE));
+        let mut span = 10.0 * base;
+        let dh = h.derivative(1);
+        let floor = (ALIVE_FRACTION * rough_peak(h, net, span)).max(f64::MIN_POSITIVE);
+        let life = h.lifetimes(floor);
+        let (mut samples, mut extrema) = scan(h, &dh, &life, 0.0, span);
+        let best = |s: &[Sample], e: &[Sample]| {
+            s.iter()
+                .chain(e)
+                .map(|x| (x.h.abs(), x.t))
+                .fold((0.0, 0.0), |b, c| if c.0 > b.0 { c } else { b })
+        };
+        let (mut peak, mut t_peak) = best(&samples, &extrema);
+        if !net.stable() {
+            return IdealShape {
+                h0,
+                peak,
+                t_peak,
+                settle: None,
+            };
+        }
+        // Extend until the envelope bound is below the settling threshold.
+        let first = span;
+        let mut guard = 0;
+        while h.envelope(span) > SETTLE_FRACTION * peak && guard < 40 {
+            span *= 2.0;
+            guard += 1;
+        }
+        if span > first {
+            let (s2, e2) = scan(h, &dh, &life, first, span);
+            samples.extend_from_slice(&s2[1..]);
+            extrema.extend(e2);
+            (peak, t_peak) = best(&samples, &extrema);
+        }
+        let settle = settle_time(h, &samples, &extrema, SETTLE_FRACTION * peak);
+        IdealShape {
+            h0,
+            peak,
+            t_peak,
+            settle,
+        }
+    }
+}
+
+/// The last time |h| is at or above `thr`: the later of the last sample and the last
+/// extremum above it, then the crossing to the next sample by bisection.
+fn settle_time(h: &FreeResponse, samples: &[Sample], extrema: &[Sample], thr: f64) -> Option<f64> {
+    let last_sample = samples.iter().rposition(|s| s.h.abs() >= thr);
+    let last_extremum = extrema
+        .iter()
+        .filter(|e| e.h.abs() >= thr)
+        .map(|e| e.t)
+        .fold(None, |m: Option<f64>, t| Some(m.map_or(t, |m| m.max(t))));
+    let from = match (last_sample.map(|i| samples[i].t), last_extremum) {
+        (None, None) => return None,
+        (a, b) => a.into_iter().chain(b).fold(f64::NEG_INFINITY, f64::max),
+    };
+    let next = samples.partition_point(|s| s.t <= from);
+    if next >= samples.len() {
+        return Some(from);
+    }
+    // Bisect the crossing between `from` (above) and the next sample (below).
+    let (mut a, mut b) = (from, samples[next].t);
+    for _ in 0..60 {
+        let mid = (a + b) / 2.0;
+        if h.at(mid).abs() >= thr {
+            a = mid;
+        } else {
+            b = mid;
+        }
+    }
+    Some(b)
 }
 
 /// Golden-section refinement of a maximum of f on [a, b].
@@ -108,90 +277,12 @@ fn refine_max(f: &dyn Fn(f64) -> f64, mut a: f64, mut b: f64) -> (f64, f64) {
     (t, f(t))
 }
 
-impl IdealShape {
-    /// Examine h(t): peak and settling time. Spans until the modes' envelope is below
-    /// 0.1 % of the peak (stable networks), or 20 slowest time scales otherwise.
-    pub fn of(net: &Network, h: &FreeResponse) -> IdealShape {
-        let h0 = net.h0_plus();
-        let base = net
-            .tau_slow()
-            .unwrap_or_else(|| 1.0 / min_nonzero_freq(net).max(f64::MIN_POSITIVE));
-        let mut span = 10.0 * base;
-        let grid = shape_grid(net, span);
-        let (mut peak, mut t_peak) = grid_peak(h, &grid);
-        if !net.stable() {
-            return IdealShape {
-                h0,
-                peak,
-                t_peak,
-                settle: None,
-            };
-        }
-        // Extend until the envelope bound is below the settling threshold.
-        let mut guard = 0;
-        while h.envelope(span) > SETTLE_FRACTION * peak && guard < 40 {
-            span *= 2.0;
-            guard += 1;
-        }
-        let grid = shape_grid(net, span);
-        let (p2, t2) = grid_peak(h, &grid);
-        if p2 > peak {
-            peak = p2;
-            t_peak = t2;
-        }
-        // Refine the peak between its grid neighbours (t_peak may come from the first grid).
-        let i = grid.partition_point(|&t| t < t_peak).min(grid.len() - 1);
-        let a = grid[i.saturating_sub(1)];
-        let b = grid[(i + 1).min(grid.len() - 1)];
-        if b > a {
-            let (t, v) = refine_max(&|t| h.at(t).abs(), a, b);
-            if v > peak {
-                peak = v;
-                t_peak = t;
-            }
-        }
-        let thr = SETTLE_FRACTION * peak;
-        let last_above = grid.iter().rposition(|&t| h.at(t).abs() >= thr);
-        let settle = last_above.map(|i| {
-            if i + 1 >= grid.len() {
-                return grid[i];
-            }
-            // Bisect the crossing between grid[i] (above) and grid[i+1] (below).
-            let (mut a, mut b) = (grid[i], grid[i + 1]);
-            for _ in 0..60 {
-                let mid = (a + b) / 2.0;
-                if h.at(mid).abs() >= thr {
-                    a = mid;
-                } else {
-                    b = mid;
-                }
-            }
-            b
-        });
-        IdealShape {
-            h0,
-            peak,
-            t_peak,
-            settle,
-        }
-    }
-}
-
 fn min_nonzero_freq(net: &Network) -> f64 {
     net.modes
         .iter()
         .map(Mode::natural_frequency)
         .filter(|&w| w > 0.0)
         .fold(f64::INFINITY, f64::min)
-}
-
-fn grid_peak(h: &FreeResponse, grid: &[f64]) -> (f64, f64) {
-    grid.iter()
-        .map(|&t| (h.at(t).abs(), t))
-        .fold(
-            (0.0, 0.0),
-            |best, cur| if cur.0 > best.0 { cur } else { best },
-        )
 }
 
 /// What the relative figures are divided by.
@@ -725,6 +816,35 @@ mod tests {
         let shape = IdealShape::of(&net, &h);
         let e = Estimator::new(&net, &shape);
         (net, e, shape)
+    }
+
+    #[test]
+    fn peak_and_settling_of_an_underdamped_pair() {
+        // ω0²/(s² + 2αs + ω0²): h = (ω0²/ωd)·e^(−αt)·sin(ωd·t), whose first maximum is where
+        // tan(ωd·t) = ωd/α (closed form). Every later maximum is smaller, so that is the peak.
+        let (w0, alpha) = (2e4f64, 3e3f64);
+        let wd = (w0 * w0 - alpha * alpha).sqrt();
+        let (_, _, shape) = est(NetworkSpec::Polynomial {
+            numerator: vec![w0 * w0],
+            denominator: vec![1.0, 2.0 * alpha, w0 * w0],
+        });
+        let t_peak = (wd / alpha).atan() / wd;
+        let peak = w0 * w0 / wd * (-alpha * t_peak).exp() * (wd * t_peak).sin();
+        assert!(
+            (shape.t_peak - t_peak).abs() <= 1e-14 * t_peak,
+            "{}",
+            shape.t_peak
+        );
+        assert!((shape.peak - peak).abs() <= 1e-14 * peak);
+        // Settled once the last extremum above 0.1 % of the peak has passed: |h| at the
+        // settling time is the threshold itself (the crossing), and no later maximum of
+        // |h| (at ωd·t = atan(ωd/α) + kπ) reaches it.
+        let settle = shape.settle.unwrap();
+        let h = |t: f64| w0 * w0 / wd * (-alpha * t).exp() * (wd * t).sin();
+        assert!((h(settle).abs() - 1e-3 * peak).abs() <= 1e-9 * peak);
+        let k_next = ((wd * settle - (wd / alpha).atan()) / std::f64::consts::PI).ceil();
+        let t_next = ((wd / alpha).atan() + k_next * std::f64::consts::PI) / wd;
+        assert!(h(t_next).abs() < 1e-3 * peak);
     }
 
     #[test]

@@ -15,6 +15,10 @@ type C = Complex64;
 
 const ZERO: C = C::new(0.0, 0.0);
 
+/// Largest number of points a uniform response grid may ask for (the response table holds
+/// six numbers per point: 480 MB at this size).
+pub const MAX_GRID_POINTS: usize = 10_000_000;
+
 /// Below this |z| the divided differences are summed as a power series.
 const SERIES_RADIUS: f64 = 2.0;
 
@@ -79,6 +83,26 @@ fn series_table(z: C, amax: usize) -> Vec<[C; 3]> {
         }
     }
     t
+}
+
+/// E(1, 1)(z) = (e^z − 1)/z exactly as `series_table` (|z| ≤ 2) and `recurrence_table`
+/// (|z| ≥ 6) compute it for one node, without the table; exp is skipped where it underflows.
+fn phi1(z: C) -> C {
+    if z.norm() <= SERIES_RADIUS {
+        let mut term = C::new(inv_factorial(1), 0.0);
+        let mut sum = term;
+        for n in 0..400 {
+            let nf = n as f64;
+            term *= z * ((nf + 1.0) / ((nf + 1.0) * (nf + 2.0)));
+            sum += term;
+            if term.norm() <= 1e-18 * sum.norm() {
+                break;
+            }
+        }
+        return sum;
+    }
+    let ez = if z.re < UNDERFLOW { ZERO } else { z.exp() };
+    (ez * inv_factorial(0) - C::new(1.0, 0.0)) / z
 }
 
 fn recurrence_table(z: C, amax: usize) -> Vec<[C; 3]> {
@@ -440,6 +464,18 @@ impl FreeResponse {
     /// ∫ value² dt from the anchor over a span T, exactly: the Gram sum over pairs of modes with
     /// ∫₀ᵀ τⁿ e^(sτ) dτ = Tⁿ⁺¹·n!·E(n+1, 1)(sT) (divided differences of exp, as in `dd_table`).
     pub fn integral_square(&self, span: f64) -> f64 {
+        // ∫₀ᵀ e^(sτ) dτ = T·E(1, 1)(sT) for a pair of simple modes, evaluated as `dd_table` does
+        // (power series for |z| ≤ 2, (e^z − 1)/z from 6 on) without building the table.
+        let simple = |s: C, c: C| -> C {
+            let z = s * span;
+            let r = z.norm();
+            let e11 = if r <= SERIES_RADIUS || r >= 6.0 {
+                phi1(z)
+            } else {
+                dd_table(z, 1)[1][1]
+            };
+            c * e11 * (span * factorial(0))
+        };
         let integral = |s: C, poly: &[C]| -> C {
             let t = dd_table(s * span, poly.len());
             let mut acc = ZERO;
@@ -454,6 +490,12 @@ impl FreeResponse {
         for (i, a) in self.terms.iter().enumerate() {
             for b in &self.terms[i..] {
                 let factor = if std::ptr::eq(a, b) { 1.0 } else { 2.0 };
+                if a.q.len() == 1 && b.q.len() == 1 {
+                    let v = simple(a.p + b.p, a.q[0] * b.q[0])
+                        + simple(a.p + b.p.conj(), a.q[0] * b.q[0].conj());
+                    total += factor * a.weight * b.weight * 0.5 * v.re;
+                    continue;
+                }
                 let prod = poly_mul(&a.q, &b.q);
                 let conj_b: Vec<C> = b.q.iter().map(|c| c.conj()).collect();
                 let prod_c = poly_mul(&a.q, &conj_b);
@@ -539,6 +581,10 @@ impl FreeResponse {
         self.terms
             .iter()
             .map(|term| {
+                // Past e^(−746) the exponential is exactly 0 in f64: skip the sincos.
+                if term.p.re * tau < UNDERFLOW {
+                    return 0.0;
+                }
                 let poly = term.q.iter().rev().fold(ZERO, |acc, &q| acc * tau + q);
                 term.weight * ((term.p * tau).exp() * poly).re
             })
@@ -582,6 +628,47 @@ impl FreeResponse {
             .sum()
     }
 
+    /// For each mode term, its natural frequency |p| and the time after the anchor beyond
+    /// which its envelope w·e^(Re p·τ)·Σ|q_k|τ^k stays below `floor` (0 for a term that never
+    /// reaches it; infinite for one that does not decay). Past τ₀ = (degree)/|Re p| every
+    /// factor τ^k·e^(Re p·τ) decreases, so the crossing found there is final; before τ₀ the
+    /// term is counted alive (a conservative answer).
+    pub fn lifetimes(&self, floor: f64) -> Vec<(f64, f64)> {
+        self.terms
+            .iter()
+            .map(|term| {
+                let sigma = term.p.re;
+                let env = |tau: f64| {
+                    let poly: f64 = term.q.iter().rev().fold(0.0, |acc, q| acc * tau + q.norm());
+                    term.weight * (sigma * tau).exp() * poly
+                };
+                let life = if sigma >= 0.0 {
+                    f64::INFINITY
+                } else {
+                    let tau0 = (term.q.len() - 1) as f64 / -sigma;
+                    if env(tau0) <= floor {
+                        tau0
+                    } else {
+                        let (mut lo, mut hi) = (tau0, tau0 + 1.0 / -sigma);
+                        for _ in 0..64 {
+                            if env(hi) <= floor {
+                                break;
+                            }
+                            lo = hi;
+                            hi += hi - tau0;
+                        }
+                        for _ in 0..60 {
+                            let mid = 0.5 * (lo + hi);
+                            if env(mid) > floor { lo = mid } else { hi = mid }
+                        }
+                        hi
+                    }
+                };
+                (term.p.norm(), life)
+            })
+            .collect()
+    }
+
     /// Values on the uniform grid t₀ + k·dt (t₀ ≥ anchor), by running exponentials: per point
     /// and mode one complex multiply, in four independent lanes so the multiplies overlap, on
     /// chunks that stay in cache; the exponential is re-anchored exactly every
@@ -597,6 +684,12 @@ impl FreeResponse {
             let k0 = c * CHUNK;
             let tau_k0 = tau0 + k0 as f64 * dt;
             for (l, base) in lanes.iter().zip(bases.iter_mut()) {
+                // A decaying mode whose running value fell below 1e-300 adds nothing that
+                // could show in a sum of f64 values of sensible size: it stays off from here.
+                if l.p.re < 0.0 && c > 0 && base.re.abs().max(base.im.abs()) < TINY {
+                    *base = ZERO;
+                    continue;
+                }
                 *base = if c % REANCHOR_CHUNKS == 0 {
                     l.q * (l.p * tau_k0).exp()
                 } else {
@@ -615,6 +708,11 @@ impl FreeResponse {
         out
     }
 }
+
+/// Exponents below this give exp(x) = 0 exactly in f64.
+const UNDERFLOW: f64 = -746.0;
+/// Running values below this are dropped (they cannot show beside any value above 1e-284).
+const TINY: f64 = 1e-300;
 
 /// Points per chunk on uniform grids.
 const CHUNK: usize = 64;

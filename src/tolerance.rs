@@ -10,6 +10,8 @@ pub const MAX_CORNER_PARTS: usize = 10;
 /// Above this many toleranced parts, sensitivities come from the Monte Carlo sample
 /// (regression slopes) instead of two extra analyses per part.
 pub const MAX_DIFFERENCED_PARTS: usize = 40;
+/// Relative difference below which two cases' time scales are the same (rounding).
+const TIE: f64 = 1e-12;
 /// Relative step of the central differences behind the sensitivities.
 const SENSITIVITY_STEP: f64 = 1e-4;
 
@@ -190,6 +192,10 @@ fn parallel_map<T: Send>(n: usize, f: &(dyn Fn(usize) -> T + Sync)) -> Vec<T> {
     })
 }
 
+fn analyse_net(spec: &NetlistSpec) -> Result<Network, NetlistError> {
+    netlist::analyse(spec).map(Network::from_circuit)
+}
+
 /// Number of toleranced parts in a netlist.
 pub fn toleranced_parts(spec: &NetlistSpec) -> usize {
     spec.parts
@@ -225,7 +231,7 @@ pub fn analyse(
         .iter()
         .map(|&i| spec.parts[i].tolerance.unwrap_or(0.0))
         .collect();
-    let nominal_net = netlist::analyse(spec)?;
+    let nominal_net = analyse_net(spec)?;
     let nominal = figures(&nominal_net, threshold);
 
     let use_corners = samples.is_none() && toleranced.len() <= MAX_CORNER_PARTS;
@@ -248,9 +254,11 @@ pub fn analyse(
             })
             .collect()
     };
+    let validated = netlist::Validated::new(spec)?;
     let done = std::sync::atomic::AtomicUsize::new(0);
     let results: Vec<Option<(Figures, usize)>> = parallel_map(count, &|case| {
-        let net = netlist::analyse(&with_factors(spec, &toleranced, &factors_of(case))).ok();
+        let variant = with_factors(spec, &toleranced, &factors_of(case));
+        let net = validated.analyse(&variant).map(Network::from_circuit).ok();
         let n = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(n);
         net.map(|net| (figures(&net, threshold), case))
@@ -267,20 +275,22 @@ pub fn analyse(
                 tau_fast.add(f.tau_fast);
                 tau_slow.add(f.tau_slow);
                 h0.add(f.h0);
-                if fastest_case.is_none_or(|(t, _)| f.tau_fast < t) {
+                // Cases equal to rounding (parts that do not move the figure) are ties: the
+                // first case keeps them, so rounding noise cannot pick the extreme network.
+                if fastest_case.is_none_or(|(t, _)| f.tau_fast < t * (1.0 - TIE)) {
                     fastest_case = Some((f.tau_fast, *case));
                 }
-                if f.tau_slow.is_finite() && slowest_case.is_none_or(|(t, _)| f.tau_slow > t) {
+                if f.tau_slow.is_finite()
+                    && slowest_case.is_none_or(|(t, _)| f.tau_slow > t * (1.0 + TIE))
+                {
                     slowest_case = Some((f.tau_slow, *case));
                 }
             }
         }
     }
     let net_of = |case: Option<(f64, usize)>| -> Network {
-        case.and_then(|(_, c)| {
-            netlist::analyse(&with_factors(spec, &toleranced, &factors_of(c))).ok()
-        })
-        .unwrap_or_else(|| nominal_net.clone())
+        case.and_then(|(_, c)| analyse_net(&with_factors(spec, &toleranced, &factors_of(c))).ok())
+            .unwrap_or_else(|| nominal_net.clone())
     };
     let fastest = net_of(fastest_case);
     let slowest = net_of(slowest_case);
@@ -300,7 +310,7 @@ pub fn analyse(
                 let fig = |f: f64| {
                     let mut s = spec.clone();
                     s.parts[i] = scaled(&spec.parts[i], f);
-                    netlist::analyse(&s).ok().map(|n| figures(&n, threshold))
+                    analyse_net(&s).ok().map(|n| figures(&n, threshold))
                 };
                 let (up, down) = (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP));
                 let (up, down) = match (up, down) {
@@ -429,7 +439,7 @@ mod tests {
                 part(
                     "C1",
                     PartKind::Capacitor {
-                        nodes: ["out".into(), "0".into()],
+                        nodes: ["out".into(), "gnd".into()],
                         value: 100e-9,
                     },
                     tol_c,

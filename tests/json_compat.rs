@@ -35,6 +35,12 @@ fn kind(v: &Value) -> &'static str {
 /// leave untouched: the network's figures. Elsewhere only names and types are held fixed.
 const VALUE_CHECKED: &[&str] = &["network"];
 
+/// Relative agreement asked of the numbers. The reorganisation itself held every field to
+/// 1e-12; since then the circuit eigensolver moved to faer and the peak of h is found from the
+/// modes, which moves last digits (ladder residues ~1e-11, t_peak ~1e-8 where the old search
+/// only located a flat maximum to √ε). The reference suite checks these against mpmath.
+const REL: f64 = 1e-7;
+
 /// Walk the old JSON: every key must exist in the new one with the same type; with `values`,
 /// numbers must agree to 1e-12 relative and strings and booleans exactly.
 fn compare(old: &Value, new: &Value, path: &str, values: bool, out: &mut Vec<String>) {
@@ -62,7 +68,7 @@ fn compare(old: &Value, new: &Value, path: &str, values: bool, out: &mut Vec<Str
         }
         (Value::Number(a), Value::Number(b)) if values => {
             let (a, b) = (a.as_f64().unwrap(), b.as_f64().unwrap());
-            if (a - b).abs() > 1e-12 * a.abs().max(b.abs()) {
+            if (a - b).abs() > REL * a.abs().max(b.abs()) + 1e-300 {
                 out.push(format!("{path}: {a} now {b}"));
             }
         }

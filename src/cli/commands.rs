@@ -149,6 +149,12 @@ pub(crate) fn response(
     if points < 2 {
         bail!(InputError("--points must be at least 2".into()));
     }
+    if points > crate::response::MAX_GRID_POINTS {
+        bail!(InputError(format!(
+            "--points {points} is above the maximum of {} (the table holds six numbers a point)",
+            crate::response::MAX_GRID_POINTS
+        )));
+    }
     // The response table needs no tolerance analysis (it is of the nominal network).
     sc.plan.tolerances = false;
     if given && sc.pulse.is_none() {

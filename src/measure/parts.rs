@@ -172,7 +172,8 @@ struct Problem<'a> {
 
 impl Problem<'_> {
     fn at(&self, part: usize, x: f64) -> Option<DVector<f64>> {
-        let net = netlist::analyse(&with_value(self.spec, part, x.exp())).ok()?;
+        let net =
+            Network::from_circuit(netlist::analyse(&with_value(self.spec, part, x.exp())).ok()?);
         model_vector(&net, self.matches, self.with_direct)
     }
 

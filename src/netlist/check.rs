@@ -2,7 +2,8 @@
 
 use std::collections::HashMap;
 
-use super::{NetlistError, NetlistSpec, Output, PartKind, Stimulus, is_ground};
+use super::label::Label;
+use super::spec::{NetlistError, NetlistSpec, Output, PartKind, Stimulus, is_ground};
 
 /// The validated circuit: node and part indices.
 pub(crate) struct Circuit {
@@ -96,7 +97,7 @@ fn branches<'a>(
         PartKind::Vccs { nodes, .. } | PartKind::Cccs { nodes, .. } => {
             vec![(&nodes[0], &nodes[1], Branch::CurrentType)]
         }
-        PartKind::OpAmp { output, .. } => vec![(output, "0", Branch::VoltageType)],
+        PartKind::OpAmp { output, .. } => vec![(output, "gnd", Branch::VoltageType)],
         PartKind::Coupling { .. } => vec![],
     }
 }
@@ -545,11 +546,10 @@ fn topology(spec: &NetlistSpec, circuit: &Circuit) -> Result<(), NetlistError> {
 pub(crate) fn explain_singular(
     spec: &NetlistSpec,
     circuit: &Circuit,
-    labels: &[super::mna::Label],
+    labels: &[Label],
     right: &[f64],
     left: &[f64],
 ) -> NetlistError {
-    use super::mna::Label;
     let describe = |l: Label| match l {
         Label::Node(k) => format!("the voltage at node '{}'", circuit.nodes[k]),
         Label::Current(j) => format!("the current in '{}'", spec.parts[j].name),

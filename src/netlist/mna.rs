@@ -7,20 +7,8 @@
 use nalgebra::{DMatrix, DVector};
 
 use super::check::Circuit;
-use super::{NetlistSpec, Output, PartKind, Stimulus};
-
-/// What an unknown (and the equation of the same index) stands for, for diagnostics.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub(crate) enum Label {
-    /// Voltage of user node k (its KCL row).
-    Node(usize),
-    /// Current of part k (its branch equation).
-    Current(usize),
-    /// Internal node between the stimulus source and its series resistance.
-    SourceNode,
-    /// Current of the stimulus voltage source.
-    SourceCurrent,
-}
+use super::label::Label;
+use super::spec::{NetlistSpec, Output, PartKind, Stimulus};
 
 /// The descriptor system with labels.
 pub(crate) struct Descriptor {

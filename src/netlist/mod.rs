@@ -19,11 +19,16 @@
 //!    differentiated; derivatives of the input are tracked exactly and finally removed from
 //!    the state equation by a change of state. A remaining derivative in the output means an
 //!    improper network function.
-//! 4. Modes come from the real Schur form of `A`: residues of simple poles from right and
-//!    left eigenvectors of the quasi-triangular factor; clusters of numerically
-//!    indistinguishable eigenvalues (Jordan blocks, e.g. buffered identical sections) get
-//!    their Laurent coefficients from contour integrals of the resolvent, evaluated by the
-//!    trapezoid rule on a circle around the cluster.
+//! 4. Modes come from the dense eigen-decomposition of `A` (faer): residues of simple poles
+//!    from right and left eigenvectors; clusters of numerically indistinguishable eigenvalues
+//!    (Jordan blocks, e.g. buffered identical sections) get their Laurent coefficients from
+//!    contour integrals of the resolvent, evaluated by the trapezoid rule on a circle around
+//!    the cluster.
+//!
+//! Circuits of resistors and capacitors alone, observed as a node voltage, skip steps 2–4:
+//! their nodal pencil is symmetric-definite and [`symmetric`](self) solves it as a symmetric
+//! eigenproblem. The result is the stage's own [`CircuitFunction`]; the `network` stage
+//! above turns it into a `Network`.
 //!
 //! # Conventions
 //!
@@ -50,197 +55,23 @@
 //!   limit `A(s) = 2π·gbw/s`.
 
 mod check;
+mod dense;
+mod function;
+mod label;
 mod mna;
 mod modes;
 mod polish;
 mod reduce;
+mod spec;
+mod symmetric;
 #[cfg(test)]
 mod tests;
+mod zeros;
 
-use nalgebra::{DMatrix, DVector};
-
-use crate::network::Network;
-
-/// The quantity the network function maps the stimulus to.
-#[derive(Debug, Clone, PartialEq)]
-pub enum Output {
-    /// Voltage of a node against ground.
-    Node(String),
-    /// Voltage of the first node minus that of the second.
-    Differential(String, String),
-    /// Current through a part (from its `nodes[0]` to its `nodes[1]`).
-    CurrentThrough(String),
-}
-
-/// How the circuit is driven.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Stimulus {
-    /// A voltage source from `input` to ground (source resistance in series).
-    Voltage,
-    /// A current injected into `input` from ground (source resistance in parallel).
-    Current,
-}
-
-/// One part of the netlist.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Part {
-    /// Unique name (matched without regard to case).
-    pub name: String,
-    /// What the part is and how it is connected.
-    pub kind: PartKind,
-    /// Source line, for diagnostics.
-    pub line: usize,
-    /// Tolerance as a fraction (not used by the analysis; validated to be in [0, 1)).
-    pub tolerance: Option<f64>,
-}
-
-/// The kinds of part.
-#[derive(Debug, Clone, PartialEq)]
-pub enum PartKind {
-    /// Resistor, ohms.
-    Resistor {
-        /// Terminals.
-        nodes: [String; 2],
-        /// Resistance in Ω (> 0).
-        value: f64,
-    },
-    /// Capacitor, farads.
-    Capacitor {
-        /// Terminals.
-        nodes: [String; 2],
-        /// Capacitance in F (> 0).
-        value: f64,
-    },
-    /// Inductor, henries.
-    Inductor {
-        /// Terminals (`nodes[0]` is the dotted end for couplings).
-        nodes: [String; 2],
-        /// Inductance in H (> 0).
-        value: f64,
-    },
-    /// Magnetic coupling of two inductors, `M = k·√(L₁L₂)`, `0 < |k| < 1`.
-    Coupling {
-        /// Names of the two inductors.
-        inductors: [String; 2],
-        /// Coupling coefficient.
-        k: f64,
-    },
-    /// Operational amplifier (see the module documentation for the models).
-    OpAmp {
-        /// Non-inverting input.
-        plus: String,
-        /// Inverting input.
-        minus: String,
-        /// Output (driven against ground).
-        output: String,
-        /// Open-loop DC gain A₀.
-        gain: Option<f64>,
-        /// Gain–bandwidth product in Hz.
-        gbw: Option<f64>,
-    },
-    /// Voltage-controlled voltage source: `v(n0) − v(n1) = gain·(v(c0) − v(c1))`.
-    Vcvs {
-        /// Output terminals.
-        nodes: [String; 2],
-        /// Controlling node pair.
-        control: [String; 2],
-        /// Voltage gain.
-        gain: f64,
-    },
-    /// Voltage-controlled current source: `gain·(v(c0) − v(c1))` flows from n0 to n1.
-    Vccs {
-        /// Output terminals.
-        nodes: [String; 2],
-        /// Controlling node pair.
-        control: [String; 2],
-        /// Transconductance in S.
-        gain: f64,
-    },
-    /// Current-controlled current source: `gain·i(sense)` flows from n0 to n1.
-    Cccs {
-        /// Output terminals.
-        nodes: [String; 2],
-        /// Part whose current controls the source.
-        sense: String,
-        /// Current gain.
-        gain: f64,
-    },
-    /// Current-controlled voltage source: `v(n0) − v(n1) = gain·i(sense)`.
-    Ccvs {
-        /// Output terminals.
-        nodes: [String; 2],
-        /// Part whose current controls the source.
-        sense: String,
-        /// Transresistance in Ω.
-        gain: f64,
-    },
-}
-
-/// A complete netlist problem: parts, stimulus and observed output.
-#[derive(Debug, Clone, PartialEq)]
-pub struct NetlistSpec {
-    /// Node the stimulus drives.
-    pub input: String,
-    /// Observed quantity.
-    pub output: Output,
-    /// Source resistance in Ω: series for a voltage stimulus, parallel for a current one.
-    pub source_resistance: Option<f64>,
-    /// Voltage or current stimulus.
-    pub stimulus: Stimulus,
-    /// The parts.
-    pub parts: Vec<Part>,
-}
-
-/// A single-input single-output state space `x' = A x + B u`, `y = C x + D u`.
-#[derive(Debug, Clone, PartialEq)]
-pub struct StateSpace {
-    /// State matrix (n × n).
-    pub a: DMatrix<f64>,
-    /// Input vector (n).
-    pub b: DVector<f64>,
-    /// Output row, stored as a vector (n).
-    pub c: DVector<f64>,
-    /// Direct feed-through.
-    pub d: f64,
-}
-
-impl StateSpace {
-    /// Order (number of states).
-    pub fn order(&self) -> usize {
-        self.a.nrows()
-    }
-}
-
-/// A netlist that cannot be analysed, with the part or node to blame.
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
-#[error("{}'{}': {}", line_prefix(*.line), .culprit, .message)]
-pub struct NetlistError {
-    /// Source line of the culprit part, when there is one.
-    pub line: Option<usize>,
-    /// Name of the part or node to blame.
-    pub culprit: String,
-    /// What is wrong.
-    pub message: String,
-}
-
-fn line_prefix(line: Option<usize>) -> String {
-    line.map(|l| format!("line {l}: ")).unwrap_or_default()
-}
-
-impl NetlistError {
-    pub(crate) fn new(line: Option<usize>, culprit: &str, message: impl Into<String>) -> Self {
-        NetlistError {
-            line,
-            culprit: culprit.to_string(),
-            message: message.into(),
-        }
-    }
-}
-
-/// True for the ground node names `0` and `gnd` (any case).
-pub fn is_ground(node: &str) -> bool {
-    node == "0" || node.eq_ignore_ascii_case("gnd") || node.eq_ignore_ascii_case("ground")
-}
+pub use function::{CircuitFunction, CircuitMode};
+pub use spec::{
+    NetlistError, NetlistSpec, Output, Part, PartKind, StateSpace, Stimulus, is_ground,
+};
 
 /// Reduce a netlist to a state space whose order is the number of independent energy
 /// stores.
@@ -260,46 +91,104 @@ pub fn state_space(spec: &NetlistSpec) -> Result<StateSpace, NetlistError> {
     Ok(reduced.ss)
 }
 
-/// Analyse a netlist into modes: poles from the eigenvalues of the reduced `A`, residues
-/// (Laurent coefficients) from its eigenvectors or, for clusters, from contour integrals.
+/// Analyse a netlist into modes: poles and residues (Laurent coefficients) from the
+/// symmetric eigenproblem of an RC circuit, or from the eigen-decomposition of the reduced
+/// state matrix (contour integrals for clusters) otherwise.
 ///
 /// Modes whose residues are negligible (uncontrollable or unobservable energy stores, e.g.
 /// an island of parts the stimulus never reaches) are dropped: they do not appear in H(s).
-pub fn analyse(spec: &NetlistSpec) -> Result<Network, NetlistError> {
-    let (reduced, desc) = reduce_spec(spec)?;
+pub fn analyse(spec: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
+    dense::sequential_by_default();
+    let circuit = check::validate(spec)?;
     let out = check::output_name(&spec.output);
-    let mut net = modes::network(&reduced.ss, reduced.improper)
-        .map_err(|m| NetlistError::new(None, &out, m))?;
-    polish::polish(&desc, &mut net);
-    if net.modes.is_empty() {
+    let f = match symmetric::analyse(spec, &circuit, true) {
+        Some(f) => f,
+        None => general(spec, &circuit, true)?,
+    };
+    if f.modes.is_empty() {
         return Err(NetlistError::new(
             None,
             &out,
             "H(s) has no poles: the output does not depend on any energy store",
         ));
     }
-    if net.modes.iter().all(|m| m.pole.norm() == 0.0) {
+    if f.modes.iter().all(|m| m.pole.norm() == 0.0) {
         return Err(NetlistError::new(
             None,
             &out,
             "every pole is at s = 0: there is no time scale to size a pulse against",
         ));
     }
-    Ok(net)
+    Ok(f)
 }
 
-/// Reduced state space plus the polynomial part beyond D (`improper[k−1]` multiplies s^k).
-pub(crate) struct Reduced {
-    pub ss: StateSpace,
-    pub improper: Vec<f64>,
+/// The general path: descriptor system, reduction, eigen-decomposition, and (when `full`)
+/// the zeros and the descriptor polish of residues, D and h(0⁺).
+fn general(
+    spec: &NetlistSpec,
+    circuit: &check::Circuit,
+    full: bool,
+) -> Result<CircuitFunction, NetlistError> {
+    let (reduced, desc) = reduce_checked(spec, circuit)?;
+    let out = check::output_name(&spec.output);
+    let mut f = modes::function(&reduced.ss, reduced.improper, full)
+        .map_err(|m| NetlistError::new(None, &out, m))?;
+    if full {
+        polish::polish(&desc, &mut f);
+    }
+    Ok(f)
 }
 
-fn reduce_spec(spec: &NetlistSpec) -> Result<(Reduced, mna::Descriptor), NetlistError> {
+/// A netlist validated once, for analysing many variants that differ only in part values
+/// (tolerance corners and samples): the checks are not repeated, and what a case does not
+/// need is skipped: the zeros (display only) and the descriptor polish (which moves residues
+/// in their last digits, not poles).
+pub struct Validated {
+    circuit: check::Circuit,
+    parts: usize,
+}
+
+impl Validated {
+    /// Validate the netlist (every diagnostic of [`analyse`]).
+    pub fn new(spec: &NetlistSpec) -> Result<Validated, NetlistError> {
+        dense::sequential_by_default();
+        Ok(Validated {
+            circuit: check::validate(spec)?,
+            parts: spec.parts.len(),
+        })
+    }
+
+    /// Analyse a variant of the validated netlist: the same parts, nodes and output, with
+    /// other values (each still valid: positive R, C, L; |k| < 1). A variant whose part
+    /// count differs is validated afresh.
+    pub fn analyse(&self, variant: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
+        if variant.parts.len() != self.parts {
+            return analyse(variant);
+        }
+        let f = match symmetric::analyse(variant, &self.circuit, false) {
+            Some(f) => f,
+            None => general(variant, &self.circuit, false)?,
+        };
+        if f.modes.is_empty() || f.modes.iter().all(|m| m.pole.norm() == 0.0) {
+            return analyse(variant);
+        }
+        Ok(f)
+    }
+}
+
+fn reduce_spec(spec: &NetlistSpec) -> Result<(reduce::Reduced, mna::Descriptor), NetlistError> {
     let circuit = check::validate(spec)?;
-    let desc = mna::assemble(spec, &circuit);
+    reduce_checked(spec, &circuit)
+}
+
+fn reduce_checked(
+    spec: &NetlistSpec,
+    circuit: &check::Circuit,
+) -> Result<(reduce::Reduced, mna::Descriptor), NetlistError> {
+    let desc = mna::assemble(spec, circuit);
     let reduced = reduce::reduce(&desc).map_err(|e| match e {
         reduce::ReduceError::Singular { right, left } => {
-            check::explain_singular(spec, &circuit, &desc.labels, &right, &left)
+            check::explain_singular(spec, circuit, &desc.labels, &right, &left)
         }
         reduce::ReduceError::Numerical(m) => {
             NetlistError::new(None, &check::output_name(&spec.output), m)

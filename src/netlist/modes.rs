@@ -1,174 +1,30 @@
-//! Modes of a state space: poles from the real Schur form, residues from eigenvectors of
-//! the quasi-triangular factor, Laurent coefficients of eigenvalue clusters from contour
-//! integrals of the resolvent.
+//! Modes of a general state space: poles and right eigenvectors from faer's dense
+//! non-symmetric eigen-decomposition (real Schur form, then back-substitution), left
+//! eigenvectors as the rows of V⁻¹, residues r = (c·v)(w·b). Clusters of numerically
+//! indistinguishable eigenvalues (Jordan blocks, e.g. buffered identical sections) get their
+//! Laurent coefficients from contour integrals of the resolvent (trapezoid rule on a circle),
+//! with the resolvent solved on the Hessenberg form in O(n²) per point.
 
-use nalgebra::{DMatrix, Schur};
+use faer::linalg::solvers::DenseSolveCore;
+use faer::{Mat, c64};
+use nalgebra::DMatrix;
 use num_complex::Complex64;
 
-use super::StateSpace;
-use crate::network::{Form, Mode, Network};
+use super::dense::to_faer;
+use super::function::{CircuitFunction, CircuitMode, all_finite, drop_negligible, sort_modes};
+use super::spec::StateSpace;
 
 type C = Complex64;
 
 const ZERO: C = C::new(0.0, 0.0);
 
-/// Quasi-upper-triangular factor with its diagonal blocks.
-struct Quasi {
-    t: DMatrix<f64>,
-    /// (start, size) of each diagonal block, size 1 or 2.
-    blocks: Vec<(usize, usize)>,
-    /// Denominators smaller than this are lifted to it (as in LAPACK's trevc).
-    smin: f64,
-}
-
-impl Quasi {
-    fn n(&self) -> usize {
-        self.t.nrows()
-    }
-
-    fn col(&self, j: usize) -> &[f64] {
-        let n = self.n();
-        &self.t.as_slice()[j * n..(j + 1) * n]
-    }
-
-    /// Solve the block (T_bb − λI) x = rhs (transposed block when `trans`).
-    fn block_solve(&self, (i, size): (usize, usize), lam: C, rhs: [C; 2], trans: bool) -> [C; 2] {
-        let t = &self.t;
-        if size == 1 {
-            let mut den = t[(i, i)] - lam;
-            if den.norm() < self.smin {
-                den = C::new(self.smin, 0.0);
-            }
-            return [rhs[0] / den, ZERO];
-        }
-        let mut m11 = t[(i, i)] - lam;
-        let (mut m12, mut m21) = (C::new(t[(i, i + 1)], 0.0), C::new(t[(i + 1, i)], 0.0));
-        let mut m22 = t[(i + 1, i + 1)] - lam;
-        if trans {
-            std::mem::swap(&mut m12, &mut m21);
-        }
-        let mut det = m11 * m22 - m12 * m21;
-        let size_est = m11.norm() + m12.norm() + m21.norm() + m22.norm();
-        if det.norm() < self.smin * size_est.max(self.smin) {
-            m11 += self.smin;
-            m22 += self.smin;
-            det = m11 * m22 - m12 * m21;
-        }
-        [
-            (m22 * rhs[0] - m12 * rhs[1]) / det,
-            (m11 * rhs[1] - m21 * rhs[0]) / det,
-        ]
-    }
-
-    /// Solve (T − λI) x = rhs on the leading blocks `..upto` (block index), in place.
-    fn back_substitute(&self, lam: C, x: &mut [C], upto: usize) {
-        for bi in (0..upto).rev() {
-            let (i, size) = self.blocks[bi];
-            let sol = self.block_solve((i, size), lam, [x[i], x[(i + 1).min(x.len() - 1)]], false);
-            for k in 0..size {
-                x[i + k] = sol[k];
-                let col = self.col(i + k);
-                for (xr, &tr) in x[..i].iter_mut().zip(&col[..i]) {
-                    *xr -= sol[k] * tr;
-                }
-            }
-        }
-    }
-
-    /// Right eigenvector of T for the eigenvalue `lam` of block `bi`.
-    fn right(&self, lam: C, bi: usize) -> Vec<C> {
-        let (i, size) = self.blocks[bi];
-        let mut y = vec![ZERO; self.n()];
-        if size == 1 {
-            y[i] = C::new(1.0, 0.0);
-        } else {
-            let (m11, m12) = (self.t[(i, i)] - lam, C::new(self.t[(i, i + 1)], 0.0));
-            let (m21, m22) = (
-                C::new(self.t[(i + 1, i)], 0.0),
-                self.t[(i + 1, i + 1)] - lam,
-            );
-            let (a, b) = if m11.norm() + m12.norm() >= m21.norm() + m22.norm() {
-                (m12, -m11)
-            } else {
-                (m22, -m21)
-            };
-            y[i] = a;
-            y[i + 1] = b;
-        }
-        for k in 0..size {
-            let col = self.col(i + k);
-            let v = y[i + k];
-            for r in 0..i {
-                y[r] -= v * col[r];
-            }
-        }
-        self.back_substitute(lam, &mut y, bi);
-        y
-    }
-
-    /// Left eigenvector w (wᵀ T = λ wᵀ) for the eigenvalue `lam` of block `bi`.
-    fn left(&self, lam: C, bi: usize) -> Vec<C> {
-        let (i, size) = self.blocks[bi];
-        let n = self.n();
-        let mut w = vec![ZERO; n];
-        if size == 1 {
-            w[i] = C::new(1.0, 0.0);
-        } else {
-            let (m11, m12) = (self.t[(i, i)] - lam, C::new(self.t[(i, i + 1)], 0.0));
-            let (m21, m22) = (
-                C::new(self.t[(i + 1, i)], 0.0),
-                self.t[(i + 1, i + 1)] - lam,
-            );
-            let (a, b) = if m11.norm() + m21.norm() >= m12.norm() + m22.norm() {
-                (m21, -m11)
-            } else {
-                (m22, -m12)
-            };
-            w[i] = a;
-            w[i + 1] = b;
-        }
-        for bj in bi + 1..self.blocks.len() {
-            let (j, sz) = self.blocks[bj];
-            let mut rhs = [ZERO; 2];
-            for (k, r) in rhs.iter_mut().enumerate().take(sz) {
-                let col = self.col(j + k);
-                let mut acc = ZERO;
-                for l in i..j {
-                    acc += w[l] * col[l];
-                }
-                *r = -acc;
-            }
-            let sol = self.block_solve((j, sz), lam, rhs, true);
-            w[j..j + sz].copy_from_slice(&sol[..sz]);
-        }
-        w
-    }
-
-    /// (sI − T)⁻¹ b.
-    fn resolvent(&self, s: C, b: &[C]) -> Vec<C> {
-        let mut x: Vec<C> = b.iter().map(|v| -v).collect();
-        self.back_substitute(s, &mut x, self.blocks.len());
-        x
-    }
-}
-
-fn dot(a: &[C], b: &[C]) -> C {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
-}
-
-fn norm(a: &[C]) -> f64 {
-    a.iter().map(|x| x.norm_sqr()).sum::<f64>().sqrt()
-}
-
-struct Eig {
-    lam: C,
-    block: usize,
-    /// Index of the eigenvalue this one is the conjugate of.
-    conj_of: Option<usize>,
-}
-
-/// Analyse a (balanced) state space into a [`Network`].
-pub(crate) fn network(ss: &StateSpace, improper: Vec<f64>) -> Result<Network, String> {
+/// Analyse a (balanced) state space into its network function; the zeros (for display) only
+/// when `with_zeros`.
+pub(crate) fn function(
+    ss: &StateSpace,
+    improper: Vec<f64>,
+    with_zeros: bool,
+) -> Result<CircuitFunction, String> {
     let n = ss.order();
     // h(0⁺) = C·B; a sum that cancels to rounding level (relative degree ≥ 2) is exactly 0.
     let h0 = ss.c.dot(&ss.b);
@@ -178,251 +34,184 @@ pub(crate) fn network(ss: &StateSpace, improper: Vec<f64>) -> Result<Network, St
     } else {
         h0
     };
-    let modes = if n == 0 { Vec::new() } else { modes_of(ss)? };
-    let mut net = Network {
-        form: Form::Netlist,
+    let mut modes = if n == 0 { Vec::new() } else { modes_of(ss)? };
+    sort_modes(&mut modes);
+    Ok(CircuitFunction {
         modes,
         direct: ss.d,
         improper,
-        zeros: zeros(ss),
-        residues_known: true,
+        zeros: if with_zeros {
+            super::zeros::zeros(ss)
+        } else {
+            Vec::new()
+        },
+        zero_scale: ss.a.norm(),
         h0_ivt,
-    };
-    net.modes.sort_by(|a, b| {
-        a.pole
-            .norm()
-            .total_cmp(&b.pole.norm())
-            .then(b.pole.im.total_cmp(&a.pole.im))
-            .then(b.pole.re.total_cmp(&a.pole.re))
-    });
-    Ok(net)
+    })
 }
 
-/// Largest order for which zeros are computed (they are for display; powers of A in the
-/// observability rows grow ill-conditioned for long chains).
-const MAX_ZERO_ORDER: usize = 40;
-
-/// Transmission zeros of a SISO state space, for display.
-///
-/// With D ≠ 0 they are the eigenvalues of A − B·C/D. Otherwise, with relative degree r
-/// (first non-zero Markov parameter m = C·A^(r−1)·B), they are the eigenvalues of the zero
-/// dynamics: A − B·C·A^r/m restricted to the kernel of [C; CA; …; CA^(r−1)], which that
-/// matrix leaves invariant (Isidori, Nonlinear Control Systems, 1995, §4.3, linear case).
-fn zeros(ss: &StateSpace) -> Vec<C> {
-    let n = ss.order();
-    if n == 0 || n > MAX_ZERO_ORDER {
-        return Vec::new();
-    }
-    let a = &ss.a;
-    let b = &ss.b;
-    let c_row = ss.c.transpose();
-    let scale = a.norm().max(f64::MIN_POSITIVE);
-    let zero_dynamics = if ss.d != 0.0 {
-        a - b * &c_row / ss.d
-    } else {
-        // Relative degree: the first Markov parameter that is not rounding noise.
-        let mut rows: Vec<nalgebra::RowDVector<f64>> = Vec::new();
-        let mut row = c_row.clone();
-        let mut found = None;
-        for r in 1..=n {
-            let m = (&row * b)[(0, 0)];
-            let size = row.norm() * b.norm();
-            rows.push(row.clone());
-            if m.abs() > 1e-10 * size {
-                found = Some((r, m));
-                break;
-            }
-            row = &row * a;
-        }
-        let Some((r, m)) = found else {
-            return Vec::new();
-        };
-        let car = &row * a; // C·A^r
-        let closed = a - b * &car / m;
-        if r == n {
-            return Vec::new();
-        }
-        // Orthonormal basis of the kernel of the r observability rows.
-        let mut obs = DMatrix::<f64>::zeros(r, n);
-        for (i, rw) in rows.iter().enumerate() {
-            obs.set_row(i, &(rw / rw.norm().max(f64::MIN_POSITIVE)));
-        }
-        let svd = obs.transpose().svd(true, false);
-        let Some(u) = svd.u else {
-            return Vec::new();
-        };
-        // Full basis of Rⁿ from a QR of [U | I]; the last n − r columns span the kernel.
-        let mut full = DMatrix::<f64>::zeros(n, n + r);
-        full.view_mut((0, 0), (n, r)).copy_from(&u.columns(0, r));
-        full.view_mut((0, r), (n, n))
-            .copy_from(&DMatrix::<f64>::identity(n, n));
-        let q = full.qr().q();
-        let z = q.columns(r, n - r).into_owned();
-        z.transpose() * closed * z
-    };
-    let eig = zero_dynamics.complex_eigenvalues();
-    let raw: Vec<C> = eig
-        .iter()
-        .map(|z| {
-            // Zeros within rounding of the origin are the origin.
-            if z.norm() <= 1e-9 * scale {
-                C::new(0.0, 0.0)
-            } else {
-                *z
-            }
-        })
-        .collect();
-    crate::network::poly::cluster(&raw, scale)
-        .into_iter()
-        .flat_map(|(z, m)| std::iter::repeat_n(z, m))
-        .collect()
+/// Eigenvalues, right eigenvectors (columns) and V⁻¹ of a real matrix, conjugate pairs made
+/// exact (upper member first, its partner the exact conjugate).
+struct Eigen {
+    lam: Vec<C>,
+    v: Mat<c64>,
+    vinv: Mat<c64>,
+    /// For each eigenvalue, the index of the upper member it is the conjugate of.
+    conj_of: Vec<Option<usize>>,
 }
 
-fn modes_of(ss: &StateSpace) -> Result<Vec<Mode>, String> {
+fn eigen(a: &DMatrix<f64>) -> Result<Eigen, String> {
+    let n = a.nrows();
+    let fa = to_faer(a);
+    let evd = fa
+        .eigen()
+        .map_err(|_| "the eigenvalue iteration did not converge".to_string())?;
+    let mut lam: Vec<C> = (0..n).map(|i| evd.S()[i]).collect();
+    let mut v = evd.U().to_owned();
+    let mut conj_of = vec![None; n];
+    let mut k = 0;
+    while k < n {
+        if lam[k].im != 0.0 && k + 1 < n {
+            // faer lists a complex pair as adjacent conjugates; put the upper member first.
+            if lam[k].im < 0.0 {
+                lam.swap(k, k + 1);
+                for i in 0..n {
+                    let t = v[(i, k)];
+                    v[(i, k)] = v[(i, k + 1)];
+                    v[(i, k + 1)] = t;
+                }
+            }
+            lam[k + 1] = lam[k].conj();
+            for i in 0..n {
+                v[(i, k + 1)] = v[(i, k)].conj();
+            }
+            conj_of[k + 1] = Some(k);
+            k += 2;
+        } else {
+            lam[k].im = 0.0;
+            k += 1;
+        }
+    }
+    let vinv = v.partial_piv_lu().inverse();
+    Ok(Eigen {
+        lam,
+        v,
+        vinv,
+        conj_of,
+    })
+}
+
+fn modes_of(ss: &StateSpace) -> Result<Vec<CircuitMode>, String> {
     let n = ss.order();
-    let schur = Schur::try_new(ss.a.clone(), f64::EPSILON, 1000 + 100 * n)
-        .ok_or("the eigenvalue iteration did not converge")?;
-    let (q, t) = schur.unpack();
-    let bt: Vec<C> = (q.transpose() * &ss.b)
-        .iter()
-        .map(|&x| C::new(x, 0.0))
+    let mut e = eigen(&ss.a)?;
+    let anorm = ss.a.norm();
+    refine_slow(ss, &mut e, anorm);
+    let bt: Vec<C> = (0..n)
+        .map(|k| (0..n).map(|j| e.vinv[(k, j)] * ss.b[j]).sum())
         .collect();
-    let ct: Vec<C> = (q.transpose() * &ss.c)
-        .iter()
-        .map(|&x| C::new(x, 0.0))
+    let ct: Vec<C> = (0..n)
+        .map(|k| (0..n).map(|i| e.v[(i, k)] * ss.c[i]).sum())
         .collect();
-    let tnorm = t.norm();
-    let mut blocks = Vec::new();
-    let mut i = 0;
-    while i < n {
-        if i + 1 < n && t[(i + 1, i)] != 0.0 {
-            blocks.push((i, 2));
-            i += 2;
-        } else {
-            blocks.push((i, 1));
-            i += 1;
-        }
-    }
-    let qt = Quasi {
-        t,
-        blocks,
-        smin: (f64::EPSILON * tnorm).max(f64::MIN_POSITIVE),
-    };
-    // Eigenvalues; a complex pair as upper member then its exact conjugate.
-    let mut eigs: Vec<Eig> = Vec::new();
-    for (bi, &(i, size)) in qt.blocks.iter().enumerate() {
-        let t = &qt.t;
-        if size == 1 {
-            eigs.push(Eig {
-                lam: C::new(t[(i, i)], 0.0),
-                block: bi,
-                conj_of: None,
-            });
-            continue;
-        }
-        let (a, b, c, d) = (t[(i, i)], t[(i, i + 1)], t[(i + 1, i)], t[(i + 1, i + 1)]);
-        let half = (a + d) / 2.0;
-        let disc = ((a - d) / 2.0).powi(2) + b * c;
-        if disc >= 0.0 {
-            let r = disc.sqrt();
-            for lam in [half + r, half - r] {
-                eigs.push(Eig {
-                    lam: C::new(lam, 0.0),
-                    block: bi,
-                    conj_of: None,
-                });
-            }
-        } else {
-            let up = C::new(half, (-disc).sqrt());
-            eigs.push(Eig {
-                lam: up,
-                block: bi,
-                conj_of: None,
-            });
-            eigs.push(Eig {
-                lam: up.conj(),
-                block: bi,
-                conj_of: Some(eigs.len() - 1),
-            });
-        }
-    }
-    let ne = eigs.len();
-    // Small eigenvalues carry the absolute error ε‖A‖ of the Schur form, which is a large
-    // relative error for the slow poles of a stiff network. Re-estimate each from the
-    // two-sided quotient of A⁻¹ (the largest eigenvalues of A⁻¹ are the smallest of A, found
-    // with relative accuracy): 1/λ = wᵀA⁻¹y / wᵀy with the right and left eigenvectors.
-    let needs_refinement = eigs.iter().any(|e| e.lam.norm() <= 2e-4 * tnorm);
-    let lu = if needs_refinement {
-        ss.a.clone().lu()
-    } else {
-        DMatrix::<f64>::identity(1, 1).lu()
-    };
-    let invertible = needs_refinement && lu.is_invertible();
-    for k in 0..ne {
-        // Only where the Schur form's relative error ε‖T‖/|λ| could exceed 1e-12.
-        if !invertible || eigs[k].conj_of.is_some() || eigs[k].lam.norm() > 2e-4 * tnorm {
-            continue;
-        }
-        let y = qt.right(eigs[k].lam, eigs[k].block);
-        let w = qt.left(eigs[k].lam, eigs[k].block);
-        let to_orig = |v: &[C]| -> (nalgebra::DVector<f64>, nalgebra::DVector<f64>) {
-            let re = &q * nalgebra::DVector::from_iterator(n, v.iter().map(|z| z.re));
-            let im = &q * nalgebra::DVector::from_iterator(n, v.iter().map(|z| z.im));
-            (re, im)
-        };
-        let (yr, yi) = to_orig(&y);
-        let (wr, wi) = to_orig(&w);
-        let (Some(xr), Some(xi)) = (lu.solve(&yr), lu.solve(&yi)) else {
-            continue;
-        };
-        let cdot = |ar: &nalgebra::DVector<f64>,
-                    ai: &nalgebra::DVector<f64>,
-                    br: &nalgebra::DVector<f64>,
-                    bi: &nalgebra::DVector<f64>| {
-            C::new(ar.dot(br) - ai.dot(bi), ar.dot(bi) + ai.dot(br))
-        };
-        let mu = cdot(&wr, &wi, &xr, &xi) / cdot(&wr, &wi, &yr, &yi);
-        let refined = C::new(1.0, 0.0) / mu;
-        // Accept only a correction within the Schur form's own uncertainty.
-        let allowed = 1e3 * f64::EPSILON * tnorm;
-        if refined.is_finite() && (refined - eigs[k].lam).norm() <= allowed {
-            let refined = if eigs[k].lam.im == 0.0 {
-                C::new(refined.re, 0.0)
-            } else {
-                refined
-            };
-            eigs[k].lam = refined;
-            if k + 1 < ne && eigs[k + 1].conj_of == Some(k) {
-                eigs[k + 1].lam = refined.conj();
-            }
-        }
-    }
-    // Residues of simple poles and eigenvalue condition numbers.
-    let mut residue = vec![ZERO; ne];
-    let mut cond = vec![1.0; ne];
-    for k in 0..ne {
-        if let Some(u) = eigs[k].conj_of {
-            residue[k] = residue[u].conj();
-            cond[k] = cond[u];
-            continue;
-        }
-        let y = qt.right(eigs[k].lam, eigs[k].block);
-        let w = qt.left(eigs[k].lam, eigs[k].block);
-        let wy = dot(&w, &y);
-        let s = wy.norm() / (norm(&w) * norm(&y));
-        cond[k] = if s.is_finite() { s } else { 0.0 };
-        let r = dot(&ct, &y) * dot(&w, &bt) / wy;
-        residue[k] = if eigs[k].lam.im == 0.0 {
+    // Residues and eigenvalue condition numbers s = |wᵀv|/(‖w‖‖v‖) with wᵀv = 1.
+    let mut residue = vec![ZERO; n];
+    let mut cond = vec![0.0; n];
+    for k in 0..n {
+        let r = ct[k] * bt[k];
+        residue[k] = if e.lam[k].im == 0.0 {
             C::new(r.re, 0.0)
         } else {
             r
         };
+        let nv = (0..n).map(|i| e.v[(i, k)].norm_sqr()).sum::<f64>().sqrt();
+        let nw = (0..n)
+            .map(|j| e.vinv[(k, j)].norm_sqr())
+            .sum::<f64>()
+            .sqrt();
+        let s = 1.0 / (nv * nw);
+        cond[k] = if s.is_finite() { s } else { 0.0 };
     }
-    // Clusters: eigenvalues whose uncertainty discs (ε‖T‖/s) overlap are indistinguishable.
+    let clusters = clusters(&e.lam, &cond, anorm);
+    let mut modes = Vec::new();
+    let mut resolvent: Option<Hessenberg> = None;
+    for members in &clusters {
+        if members.len() == 1 {
+            let k = members[0];
+            if e.conj_of[k].is_none() {
+                modes.push(CircuitMode {
+                    pole: e.lam[k],
+                    residues: vec![residue[k]],
+                });
+                if e.lam[k].im != 0.0 {
+                    modes.push(CircuitMode {
+                        pole: e.lam[k].conj(),
+                        residues: vec![residue[k].conj()],
+                    });
+                }
+            }
+            continue;
+        }
+        let h = resolvent.get_or_insert_with(|| Hessenberg::new(ss));
+        cluster_modes(h, &e.lam, members, &mut modes);
+    }
+    if !all_finite(&modes) {
+        return Err("the modal analysis produced non-finite numbers".into());
+    }
+    Ok(drop_negligible(modes))
+}
+
+/// Small eigenvalues carry the absolute error ε‖A‖ of the Schur form, a large relative error
+/// for the slow poles of a stiff network. Each is re-estimated from the two-sided quotient
+/// of A⁻¹ (whose largest eigenvalues are A's smallest, found with relative accuracy):
+/// 1/λ = wᵀA⁻¹v / wᵀv. One LU of A, then O(n²) per refined pole.
+fn refine_slow(ss: &StateSpace, e: &mut Eigen, anorm: f64) {
+    let n = ss.order();
+    let slow = |l: C| l.norm() <= 2e-4 * anorm;
+    if !e.lam.iter().any(|&l| slow(l)) {
+        return;
+    }
+    let lu = to_faer(&ss.a).partial_piv_lu();
+    let allowed = 1e3 * f64::EPSILON * anorm;
+    for k in 0..n {
+        if e.conj_of[k].is_some() || !slow(e.lam[k]) {
+            continue;
+        }
+        let re = Mat::<f64>::from_fn(n, 2, |i, j| {
+            if j == 0 {
+                e.v[(i, k)].re
+            } else {
+                e.v[(i, k)].im
+            }
+        });
+        let x = faer::linalg::solvers::Solve::solve(&lu, &re);
+        let (mut wx, mut wv) = (ZERO, ZERO);
+        for i in 0..n {
+            let w = e.vinv[(k, i)];
+            wx += w * C::new(x[(i, 0)], x[(i, 1)]);
+            wv += w * e.v[(i, k)];
+        }
+        let refined = wv / wx;
+        if refined.is_finite() && (refined - e.lam[k]).norm() <= allowed {
+            let refined = if e.lam[k].im == 0.0 {
+                C::new(refined.re, 0.0)
+            } else {
+                refined
+            };
+            e.lam[k] = refined;
+            if k + 1 < n && e.conj_of[k + 1] == Some(k) {
+                e.lam[k + 1] = refined.conj();
+            }
+        }
+    }
+}
+
+/// Groups of eigenvalues whose uncertainty discs (ε‖A‖/s) overlap, or that agree to about
+/// √ε (the scatter a computed double eigenvalue shows whatever the scaling).
+fn clusters(lam: &[C], cond: &[f64], anorm: f64) -> Vec<Vec<usize>> {
+    let ne = lam.len();
     let radius: Vec<f64> = (0..ne)
         .map(|k| {
-            let r = 1e3 * f64::EPSILON * tnorm / cond[k].max(1e-300);
-            r.min(0.01 * eigs[k].lam.norm())
+            let r = 1e3 * f64::EPSILON * anorm / cond[k].max(1e-300);
+            r.min(0.01 * lam[k].norm())
         })
         .collect();
     let mut parent: Vec<usize> = (0..ne).collect();
@@ -433,12 +222,19 @@ fn modes_of(ss: &StateSpace) -> Result<Vec<Mode>, String> {
         }
         i
     }
-    for i in 0..ne {
-        for j in i + 1..ne {
-            // Overlapping uncertainty discs, or equal to about √ε (the scatter a computed
-            // double eigenvalue shows whatever the scaling).
-            let gap = (eigs[i].lam - eigs[j].lam).norm();
-            let near = 1e-7 * eigs[i].lam.norm().max(eigs[j].lam.norm());
+    // Sorted by real part, only neighbours within the largest radius need comparing.
+    let mut order: Vec<usize> = (0..ne).collect();
+    order.sort_by(|&a, &b| lam[a].re.total_cmp(&lam[b].re));
+    let rmax = radius.iter().copied().fold(0.0, f64::max);
+    let lmax = lam.iter().map(|l| l.norm()).fold(0.0, f64::max);
+    let reach = 2.0 * rmax + 1e-7 * lmax;
+    for (x, &i) in order.iter().enumerate() {
+        for &j in &order[x + 1..] {
+            if lam[j].re - lam[i].re > reach {
+                break;
+            }
+            let gap = (lam[i] - lam[j]).norm();
+            let near = 1e-7 * lam[i].norm().max(lam[j].norm());
             if gap <= radius[i] + radius[j] || gap <= near {
                 let (a, b) = (find(&mut parent, i), find(&mut parent, j));
                 if a != b {
@@ -447,150 +243,141 @@ fn modes_of(ss: &StateSpace) -> Result<Vec<Mode>, String> {
             }
         }
     }
-    let mut clusters: std::collections::BTreeMap<usize, Vec<usize>> = Default::default();
+    let mut groups: std::collections::BTreeMap<usize, Vec<usize>> = Default::default();
     for k in 0..ne {
-        clusters.entry(find(&mut parent, k)).or_default().push(k);
+        groups.entry(find(&mut parent, k)).or_default().push(k);
     }
-    let mut modes: Vec<Mode> = Vec::new();
-    for members in clusters.values() {
-        if members.len() == 1 {
-            let k = members[0];
-            if eigs[k].conj_of.is_some() {
-                continue; // emitted with its upper member
-            }
-            let lam = eigs[k].lam;
-            modes.push(Mode {
-                pole: lam,
-                residues: vec![residue[k]],
-            });
-            if lam.im != 0.0 {
-                modes.push(Mode {
-                    pole: lam.conj(),
-                    residues: vec![residue[k].conj()],
-                });
-            }
-            continue;
-        }
-        let m = members.len();
-        let mut centre = members.iter().map(|&k| eigs[k].lam).sum::<C>() / m as f64;
-        let self_conj = centre.im.abs() <= 1e-12 * centre.norm();
-        if !self_conj && centre.im < 0.0 {
-            continue; // mirrored from the upper cluster
-        }
-        if self_conj {
-            centre.im = 0.0;
-        }
-        let spread = members
-            .iter()
-            .map(|&k| (eigs[k].lam - centre).norm())
-            .fold(0.0, f64::max);
-        let dist = (0..ne)
-            .filter(|k| !members.contains(k))
-            .map(|k| (eigs[k].lam - centre).norm())
-            .fold(f64::INFINITY, f64::min);
-        let rho = if dist.is_finite() {
-            if dist / 2.0 > 2.0 * spread {
-                dist / 2.0
-            } else {
-                (spread + dist) / 2.0
-            }
-        } else {
-            let r = (centre.norm() / 2.0).max(4.0 * spread);
-            if r > 0.0 { r } else { 1.0 }
-        };
-        let points = if dist.is_finite() && (rho / dist > 0.6 || spread / rho > 0.4) {
-            256
-        } else {
-            64
-        };
-        let mut coeffs = vec![ZERO; m];
-        for j in 0..points {
-            let theta = 2.0 * std::f64::consts::PI * (j as f64 + 0.5) / points as f64;
-            let z = C::from_polar(rho, theta);
-            let x = qt.resolvent(centre + z, &bt);
-            let h = dot(&ct, &x);
-            let mut zk = z;
-            for a in coeffs.iter_mut() {
-                *a += h * zk;
-                zk *= z;
-            }
-        }
-        for a in coeffs.iter_mut() {
-            *a /= points as f64;
-            if self_conj {
-                a.im = 0.0;
-            }
-        }
-        // Drop trailing coefficients at rounding level (a semisimple multiple eigenvalue).
-        let scale = centre.norm().max(rho);
-        let weight = |k: usize, a: &C| a.norm() / scale.powi(k as i32);
-        let wmax = coeffs
-            .iter()
-            .enumerate()
-            .map(|(k, a)| weight(k, a))
-            .fold(0.0, f64::max);
-        while coeffs.len() > 1 && weight(coeffs.len() - 1, coeffs.last().unwrap()) <= 1e-7 * wmax {
-            coeffs.pop();
-        }
-        if !self_conj {
-            modes.push(Mode {
-                pole: centre.conj(),
-                residues: coeffs.iter().map(|a| a.conj()).collect(),
-            });
-        }
-        modes.push(Mode {
-            pole: centre,
-            residues: coeffs,
-        });
-    }
-    if modes.iter().any(|m| {
-        !m.pole.re.is_finite()
-            || m.residues
-                .iter()
-                .any(|r| !r.re.is_finite() || !r.im.is_finite())
-    }) {
-        return Err("the modal analysis produced non-finite numbers".into());
-    }
-    Ok(drop_negligible(modes))
+    groups.into_values().collect()
 }
 
-/// Drop modes whose contribution is at rounding level both in the impulse response
-/// (|r_k|/|p|^(k−1)) and in the step response (|r_k|/|p|^k), relative to the largest mode.
-fn drop_negligible(modes: Vec<Mode>) -> Vec<Mode> {
-    let wmin = modes
-        .iter()
-        .map(|m| m.pole.norm())
-        .filter(|&w| w > 0.0)
-        .fold(f64::INFINITY, f64::min);
-    let wref = |m: &Mode| {
-        let w = m.pole.norm();
-        if w > 0.0 {
-            w
-        } else if wmin.is_finite() {
-            wmin
-        } else {
-            1.0
+/// The resolvent cᵀ(sI − A)⁻¹b on the Hessenberg form A = Q H Qᵀ (nalgebra), each point
+/// solved by Gaussian elimination with partial pivoting along the subdiagonal: O(n²).
+struct Hessenberg {
+    h: DMatrix<f64>,
+    b: Vec<f64>,
+    c: Vec<f64>,
+}
+
+impl Hessenberg {
+    fn new(ss: &StateSpace) -> Hessenberg {
+        let hess = ss.a.clone().hessenberg();
+        let (q, h) = hess.unpack();
+        let b = (q.transpose() * &ss.b).iter().copied().collect();
+        let c = (q.transpose() * &ss.c).iter().copied().collect();
+        Hessenberg { h, b, c }
+    }
+
+    /// cᵀ(sI − H)⁻¹b.
+    fn transfer(&self, s: C) -> C {
+        let n = self.b.len();
+        let mut m: Vec<Vec<C>> = (0..n)
+            .map(|i| {
+                (0..n)
+                    .map(|j| {
+                        let d = if i == j { s } else { ZERO };
+                        d - self.h[(i, j)]
+                    })
+                    .collect()
+            })
+            .collect();
+        let mut x: Vec<C> = self.b.iter().map(|&v| C::new(v, 0.0)).collect();
+        for k in 0..n.saturating_sub(1) {
+            // Only row k + 1 has a nonzero below the diagonal in column k.
+            if m[k + 1][k].norm() > m[k][k].norm() {
+                m.swap(k, k + 1);
+                x.swap(k, k + 1);
+            }
+            if m[k][k] == ZERO {
+                continue;
+            }
+            let f = m[k + 1][k] / m[k][k];
+            let (top, rest) = m.split_at_mut(k + 1);
+            for (dst, src) in rest[0][k..].iter_mut().zip(&top[k][k..]) {
+                *dst -= f * src;
+            }
+            let t = x[k];
+            x[k + 1] -= f * t;
         }
-    };
-    let weights: Vec<(f64, f64)> = modes
+        for k in (0..n).rev() {
+            let acc: C = (k + 1..n).map(|j| m[k][j] * x[j]).sum();
+            x[k] = (x[k] - acc) / m[k][k];
+        }
+        self.c.iter().zip(&x).map(|(c, x)| x * *c).sum()
+    }
+}
+
+/// Laurent coefficients of one cluster from the contour integral of the resolvent around
+/// it: aⱼ = (1/2πi)∮ H(s)(s − centre)^(j−1) ds, trapezoid rule on a circle.
+fn cluster_modes(h: &Hessenberg, lam: &[C], members: &[usize], out: &mut Vec<CircuitMode>) {
+    let ne = lam.len();
+    let m = members.len();
+    let mut centre = members.iter().map(|&k| lam[k]).sum::<C>() / m as f64;
+    let self_conj = centre.im.abs() <= 1e-12 * centre.norm();
+    if !self_conj && centre.im < 0.0 {
+        return; // mirrored from the upper cluster
+    }
+    if self_conj {
+        centre.im = 0.0;
+    }
+    let spread = members
         .iter()
-        .map(|m| {
-            let w = wref(m);
-            m.residues
-                .iter()
-                .enumerate()
-                .fold((0.0f64, 0.0f64), |(i, s), (k, r)| {
-                    let imp = r.norm() / w.powi(k as i32);
-                    (i.max(imp), s.max(imp / w))
-                })
-        })
-        .collect();
-    let imax = weights.iter().map(|w| w.0).fold(0.0, f64::max);
-    let smax = weights.iter().map(|w| w.1).fold(0.0, f64::max);
-    modes
-        .into_iter()
-        .zip(weights)
-        .filter(|(_, (i, s))| *i > 1e-10 * imax || *s > 1e-10 * smax)
-        .map(|(m, _)| m)
-        .collect()
+        .map(|&k| (lam[k] - centre).norm())
+        .fold(0.0, f64::max);
+    let dist = (0..ne)
+        .filter(|k| !members.contains(k))
+        .map(|k| (lam[k] - centre).norm())
+        .fold(f64::INFINITY, f64::min);
+    let rho = if dist.is_finite() {
+        if dist / 2.0 > 2.0 * spread {
+            dist / 2.0
+        } else {
+            (spread + dist) / 2.0
+        }
+    } else {
+        let r = (centre.norm() / 2.0).max(4.0 * spread);
+        if r > 0.0 { r } else { 1.0 }
+    };
+    let points = if dist.is_finite() && (rho / dist > 0.6 || spread / rho > 0.4) {
+        256
+    } else {
+        64
+    };
+    let mut coeffs = vec![ZERO; m];
+    for j in 0..points {
+        let theta = 2.0 * std::f64::consts::PI * (j as f64 + 0.5) / points as f64;
+        let z = C::from_polar(rho, theta);
+        let hz = h.transfer(centre + z);
+        let mut zk = z;
+        for a in coeffs.iter_mut() {
+            *a += hz * zk;
+            zk *= z;
+        }
+    }
+    for a in coeffs.iter_mut() {
+        *a /= points as f64;
+        if self_conj {
+            a.im = 0.0;
+        }
+    }
+    // Drop trailing coefficients at rounding level (a semisimple multiple eigenvalue).
+    let scale = centre.norm().max(rho);
+    let weight = |k: usize, a: &C| a.norm() / scale.powi(k as i32);
+    let wmax = coeffs
+        .iter()
+        .enumerate()
+        .map(|(k, a)| weight(k, a))
+        .fold(0.0, f64::max);
+    while coeffs.len() > 1 && weight(coeffs.len() - 1, &coeffs[coeffs.len() - 1]) <= 1e-7 * wmax {
+        coeffs.pop();
+    }
+    if !self_conj {
+        out.push(CircuitMode {
+            pole: centre.conj(),
+            residues: coeffs.iter().map(|a| a.conj()).collect(),
+        });
+    }
+    out.push(CircuitMode {
+        pole: centre,
+        residues: coeffs,
+    });
 }

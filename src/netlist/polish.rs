@@ -3,16 +3,21 @@
 //! integrands; Trefethen & Weideman 2014). The poles come from the reduced state space, which
 //! resolves them well; the reduction of input derivatives can leave ~1e-9 in D and the
 //! residues, which the descriptor system does not have.
+//!
+//! Each contour point costs one dense complex LU of the descriptor pencil, so the polish is
+//! kept to small descriptors (at most [`MAX_SIZE`] unknowns): a fixed cost per pole, never a
+//! step that outgrows the eigen-decomposition. Larger circuits keep the reduced system's
+//! figures.
 
+use super::function::CircuitFunction;
 use super::mna::Descriptor;
-use crate::network::Network;
 use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
 
 type C = Complex64;
 
 /// Largest descriptor size polished (each point costs one dense complex LU).
-const MAX_SIZE: usize = 120;
+pub(crate) const MAX_SIZE: usize = 40;
 /// Points on each circle.
 const POINTS: usize = 48;
 
@@ -41,7 +46,7 @@ fn circle_mean(centre: C, radius: f64, f: &dyn Fn(C) -> Option<C>) -> Option<C> 
 
 /// Recompute simple residues, D and h(0⁺) (initial-value theorem) from the descriptor system.
 /// Leaves the network unchanged where a contour cannot be placed or evaluated.
-pub(crate) fn polish(d: &Descriptor, net: &mut Network) {
+pub(crate) fn polish(d: &Descriptor, net: &mut CircuitFunction) {
     if d.e.nrows() > MAX_SIZE || net.is_improper() {
         return;
     }
@@ -105,7 +110,7 @@ pub(crate) fn polish(d: &Descriptor, net: &mut Network) {
         }
     }
     // Size of h near the origin, each Laurent term at its own time scale.
-    let scale: f64 = net.modes.iter().map(crate::network::Mode::size).sum();
+    let scale = net.size();
     net.direct = if direct.re.abs() <= 1e-12 * (1.0 + scale / pmax) {
         0.0
     } else {

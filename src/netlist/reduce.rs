@@ -21,7 +21,13 @@ use nalgebra::{DMatrix, DVector};
 use num_complex::Complex64;
 
 use super::mna::Descriptor;
-use super::{Reduced, StateSpace};
+use super::spec::StateSpace;
+
+/// Reduced state space plus the polynomial part beyond D (`improper[k−1]` multiplies s^k).
+pub(crate) struct Reduced {
+    pub ss: StateSpace,
+    pub improper: Vec<f64>,
+}
 
 /// Why the reduction failed.
 pub(crate) enum ReduceError {
@@ -35,20 +41,6 @@ pub(crate) enum ReduceError {
 /// Relative rank tolerance for the algebraic blocks.
 const RANK_TOL: f64 = 1e-12;
 
-/// Orthogonal matrix whose first columns are the orthonormal columns of `q` (rows × r).
-fn complete_basis(q: &DMatrix<f64>) -> DMatrix<f64> {
-    let (rows, r) = q.shape();
-    if r == 0 {
-        return DMatrix::identity(rows, rows);
-    }
-    let qr = q.clone().qr();
-    let mut full_t = DMatrix::identity(rows, rows);
-    qr.q_tr_mul(&mut full_t);
-    let mut full = full_t.transpose();
-    full.columns_mut(0, r).copy_from(q);
-    full
-}
-
 /// Full SVD `m = U·diag(σ)·Vᵀ` with U, V square orthogonal; returns (U, σ (rank entries,
 /// descending), V). The rank counts σᵢ > `tol`.
 fn full_svd(m: &DMatrix<f64>, tol: f64) -> (DMatrix<f64>, Vec<f64>, DMatrix<f64>) {
@@ -60,19 +52,17 @@ fn full_svd(m: &DMatrix<f64>, tol: f64) -> (DMatrix<f64>, Vec<f64>, DMatrix<f64>
             DMatrix::identity(cols, cols),
         );
     }
-    let svd = m.clone().svd(true, true);
-    let u = svd.u.unwrap();
-    let v = svd.v_t.unwrap().transpose();
-    let sigma: Vec<f64> = svd
-        .singular_values
-        .iter()
-        .copied()
-        .take_while(|&s| s > tol)
-        .collect();
-    let r = sigma.len();
-    let uf = complete_basis(&u.columns(0, r).into_owned());
-    let vf = complete_basis(&v.columns(0, r).into_owned());
-    (uf, sigma, vf)
+    // faer's full SVD: U and V are square, their leading columns span the row and column
+    // spaces. Non-finite input (reported by the caller) counts as rank 0.
+    let Some((u, sv, v)) = super::dense::svd(m) else {
+        return (
+            DMatrix::identity(rows, rows),
+            vec![],
+            DMatrix::identity(cols, cols),
+        );
+    };
+    let sigma: Vec<f64> = sv.iter().copied().take_while(|&s| s > tol).collect();
+    (u, sigma, v)
 }
 
 fn pow2(x: f64) -> f64 {

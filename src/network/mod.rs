@@ -202,7 +202,7 @@ impl Network {
             } => from_polynomials(numerator, denominator)?,
             NetworkSpec::ZeroPoleGain { zeros, poles, gain } => from_zpk(zeros, poles, *gain)?,
             NetworkSpec::Netlist(spec) => {
-                crate::netlist::analyse(spec).map_err(NetworkError::Netlist)?
+                Network::from_circuit(crate::netlist::analyse(spec).map_err(NetworkError::Netlist)?)
             }
         };
         if net.modes.is_empty() {
@@ -231,6 +231,30 @@ impl Network {
             zeros: Vec::new(),
             residues_known: true,
             h0_ivt: 0.0,
+        }
+    }
+
+    /// The network of a circuit's analysed network function (repeated zeros grouped).
+    pub fn from_circuit(f: crate::netlist::CircuitFunction) -> Network {
+        let zeros = poly::cluster(&f.zeros, f.zero_scale)
+            .into_iter()
+            .flat_map(|(z, m)| std::iter::repeat_n(z, m))
+            .collect();
+        Network {
+            form: Form::Netlist,
+            modes: f
+                .modes
+                .into_iter()
+                .map(|m| Mode {
+                    pole: m.pole,
+                    residues: m.residues,
+                })
+                .collect(),
+            direct: f.direct,
+            improper: f.improper,
+            zeros,
+            residues_known: true,
+            h0_ivt: f.h0_ivt,
         }
     }
 

@@ -70,7 +70,7 @@ FLOOR_LSIM = 1e-10     # abs floor of the lsim comparison, fraction of the modal
 # ------------------------------------------------------------ netlist ---
 
 def is_ground(n):
-    return n == "0" or n.lower() == "gnd"
+    return n.lower() in ("gnd", "ground")
 
 
 class Circuit:
