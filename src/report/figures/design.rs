@@ -60,7 +60,10 @@ pub fn design_curve(
     let planned_width = out.pulse.width_50();
     let cap_width = crate::plan::width_cap(prep, s).width(prep.tau_plan);
     let lo = rule_width.min(planned_width) / 30.0;
-    let hi = planned_width.max(cap_width) * 4.0;
+    // Up to a few times the planned width (or the user's cap): wider pulses only leave the
+    // budget further behind, and near the run length the metric loses its meaning.
+    let user_cap = s.min_width_ratio.map_or(0.0, |_| cap_width * 1.5);
+    let hi = (planned_width * 8.0).max(user_cap);
     let n = n.max(2);
     let mut widths: Vec<f64> = (0..n)
         .map(|k| lo * (hi / lo).powf(k as f64 / (n - 1) as f64))
