@@ -7,6 +7,7 @@ use std::process::ExitCode;
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    cli::install_interrupt_cleanup();
     match cli::run(cli) {
         Ok(Outcome::Clean) => ExitCode::from(0),
         Ok(Outcome::Warned) => ExitCode::from(1),

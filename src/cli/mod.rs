@@ -15,6 +15,16 @@ pub use starter::starter_scenario;
 use anyhow::Result;
 use clap::CommandFactory;
 
+/// On SIGINT or SIGTERM, remove the temporary files and folders still being written (outputs
+/// are renamed into place only when complete, so nothing half-written remains), then exit
+/// with 130.
+pub fn install_interrupt_cleanup() {
+    let _ = ctrlc::set_handler(|| {
+        crate::report::files::remove_pending();
+        std::process::exit(130);
+    });
+}
+
 /// Run a parsed command line.
 pub fn run(cli: Cli) -> Result<Outcome> {
     let quiet = cli.quiet;

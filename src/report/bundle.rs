@@ -1,7 +1,8 @@
 //! The report bundle: a folder with the figures, the HTML report, the response CSV and the
 //! plan JSON, every file written atomically.
 
-use super::figures::{FigureOptions, plan_figures};
+use super::figures::{ExtraCurve, FigureOptions, plan_figures};
+use super::files::AtomicDir;
 use crate::pipeline::PlanOutcome;
 use crate::scenario::Scenario;
 use std::path::{Path, PathBuf};
@@ -25,86 +26,65 @@ pub fn write_bundle(dir: &Path, sc: &Scenario, out: &PlanOutcome) -> std::io::Re
     write_bundle_with(dir, sc, out, BundleOptions::default())
 }
 
-/// [`write_bundle`] with options.
+/// The noise and total curves the design figure shows beside the bias, with output noise.
+fn noise_curves(out: &PlanOutcome) -> Vec<ExtraCurve> {
+    let Some(n) = &out.bench.noise.noise else {
+        return Vec::new();
+    };
+    let pair = |ys: &[f64]| n.widths.iter().copied().zip(ys.iter().copied()).collect();
+    vec![
+        ExtraCurve {
+            label: "noise, one acquisition".into(),
+            points: pair(&n.noise),
+        },
+        ExtraCurve {
+            label: "bias + noise".into(),
+            points: pair(&n.total),
+        },
+    ]
+}
+
+/// [`write_bundle`] with options. The folder is written whole or not at all: every file goes
+/// into a temporary sibling folder that replaces `dir` in one rename at the end.
 pub fn write_bundle_with(
     dir: &Path,
     sc: &Scenario,
     out: &PlanOutcome,
     opts: BundleOptions<'_>,
 ) -> std::io::Result<Vec<PathBuf>> {
-    std::fs::create_dir_all(dir)?;
     let mut noop = |_: usize, _: usize| {};
     let progress: &mut dyn FnMut(usize, usize) = match opts.progress {
         Some(p) => p,
         None => &mut noop,
     };
-    // With output noise, the design figure also shows the noise and total curves.
-    let noise_curves: Vec<super::figures::ExtraCurve> =
-        match (&out.bench.noise.noise, opts.figures.extra_curves.is_empty()) {
-            (Some(n), true) => vec![
-                super::figures::ExtraCurve {
-                    label: "noise, one acquisition".into(),
-                    points: n
-                        .widths
-                        .iter()
-                        .copied()
-                        .zip(n.noise.iter().copied())
-                        .collect(),
-                },
-                super::figures::ExtraCurve {
-                    label: "bias + noise".into(),
-                    points: n
-                        .widths
-                        .iter()
-                        .copied()
-                        .zip(n.total.iter().copied())
-                        .collect(),
-                },
-            ],
-            _ => Vec::new(),
-        };
-    let fig_opts = if noise_curves.is_empty() {
+    let extra = noise_curves(out);
+    let fig_opts = if extra.is_empty() || !opts.figures.extra_curves.is_empty() {
         opts.figures
     } else {
-        super::figures::FigureOptions {
-            extra_curves: &noise_curves,
+        FigureOptions {
+            extra_curves: &extra,
             ..opts.figures
         }
     };
     let figures = plan_figures(sc, out, &fig_opts, progress)?;
+    let bundle = AtomicDir::new(dir)?;
     let mut written = Vec::new();
     for f in &figures {
-        let path = dir.join(&f.file);
-        super::csv_out::write_atomic(&path, f.svg.as_bytes())?;
-        written.push(path);
+        written.push(bundle.write(&f.file, f.svg.as_bytes())?);
     }
     let html = super::html::plan_html(sc, out, &figures);
-    let path = dir.join("report.html");
-    super::csv_out::write_atomic(&path, html.as_bytes())?;
-    written.push(path);
+    written.push(bundle.write("report.html", html.as_bytes())?);
     let rows =
         super::csv_out::response_rows(&sc.network, &out.pulse, out.prep.run, RESPONSE_POINTS);
-    let path = dir.join("response.csv");
-    super::csv_out::write_response_csv(&path, &rows)?;
-    written.push(path);
+    super::csv_out::write_response_csv(&bundle.path("response.csv"), &rows)?;
+    written.push(bundle.final_path("response.csv"));
     let json = serde_json::to_string_pretty(&super::json::plan_json(sc, out, &[]))
         .map_err(std::io::Error::other)?;
-    let path = dir.join("plan.json");
-    super::csv_out::write_atomic(&path, (json + "\n").as_bytes())?;
-    written.push(path);
+    written.push(bundle.write("plan.json", (json + "\n").as_bytes())?);
     let sheet = super::sheet::generator_sheet(sc, out);
-    let path = dir.join("generator.txt");
-    super::csv_out::write_atomic(&path, sheet.as_bytes())?;
-    written.push(path);
-    let unit = match sc.drive {
-        crate::units::Signal::Voltage => "V",
-        crate::units::Signal::Current => "A",
-    };
-    let path = dir.join("stimulus.csv");
-    super::csv_out::write_atomic(
-        &path,
-        super::sheet::stimulus_csv(&out.bench, unit).as_bytes(),
-    )?;
-    written.push(path);
+    written.push(bundle.write("generator.txt", sheet.as_bytes())?);
+    let stimulus = super::sheet::stimulus_csv(&out.bench, sc.drive.symbol());
+    written.push(bundle.write("stimulus.csv", stimulus.as_bytes())?);
+    bundle.commit()?;
     Ok(written)
 }

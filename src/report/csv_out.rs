@@ -92,7 +92,7 @@ pub fn response_rows(net: &Network, pulse: &Trapezoid, run: f64, points: usize) 
 /// Write the response CSV atomically (temporary file in the same folder, then rename),
 /// streaming the rows through a buffer.
 pub fn write_response_csv(path: &Path, rows: &[[f64; 6]]) -> std::io::Result<()> {
-    write_atomic_with(path, &mut |w| {
+    super::files::write_atomic_with(path, &mut |w| {
         w.write_all(b"t,ideal,predicted,error,ideal_aligned,error_aligned\n")?;
         let mut buf = ryu::Buffer::new();
         let mut line = Vec::with_capacity(6 * 25);
@@ -109,38 +109,4 @@ pub fn write_response_csv(path: &Path, rows: &[[f64; 6]]) -> std::io::Result<()>
         }
         Ok(())
     })
-}
-
-/// Write bytes to `path` via a temporary sibling and a rename, so no half-written file remains.
-pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
-    write_atomic_with(path, &mut |w| w.write_all(bytes))
-}
-
-/// Stream into a temporary sibling of `path`, then rename it into place; the temporary file
-/// is removed when anything fails.
-fn write_atomic_with(
-    path: &Path,
-    fill: &mut dyn FnMut(&mut dyn std::io::Write) -> std::io::Result<()>,
-) -> std::io::Result<()> {
-    let dir = path
-        .parent()
-        .filter(|d| !d.as_os_str().is_empty())
-        .unwrap_or(Path::new("."));
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "out".into());
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let result = (|| {
-        let f = std::fs::File::create(&tmp)?;
-        let mut w = std::io::BufWriter::with_capacity(1 << 20, f);
-        fill(&mut w)?;
-        let f = w.into_inner().map_err(|e| e.into_error())?;
-        f.sync_all()?;
-        std::fs::rename(&tmp, path)
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
-    }
-    result
 }

@@ -4,6 +4,7 @@
 pub mod bundle;
 mod csv_out;
 pub mod figures;
+pub mod files;
 pub mod html;
 mod json;
 pub mod markup;
@@ -14,7 +15,8 @@ mod text;
 pub mod words;
 
 pub use bundle::{BundleOptions, write_bundle, write_bundle_with};
-pub use csv_out::{response_rows, write_atomic, write_response_csv};
+pub use csv_out::{response_rows, write_response_csv};
+pub use files::write_atomic;
 pub use html::plan_html;
 pub use json::{assess_json, plan_json};
 pub use sheet::{generator_sheet, stimulus_csv};

@@ -68,7 +68,7 @@ pub fn write_csv(path: &Path, cap: &measure::Capture, rec: &Recovery) -> std::io
         }
         w.flush()?;
     }
-    crate::report::write_atomic(path, &buf)
+    super::files::write_atomic(path, &buf)
 }
 
 /// Units of h: output per (input × second), from the drive's and the output's kinds.
