@@ -31,7 +31,7 @@ fn response_rows_match_pointwise_cursors() {
     let net = order6();
     let pulse = tied_pulse(1e-3, 5e-6, 50.0);
     let run = 0.1;
-    let rows = pulseplan::report::response_rows(&net, &pulse, run, 20_001);
+    let rows = pulseplan::report::response_rows(&net, &pulse, run, 20_001, &[]);
     let times: Vec<f64> = rows.iter().map(|r| r[0]).collect();
     assert!(times.windows(2).all(|w| w[0] < w[1]), "sorted, no repeats");
     for b in pulse.breakpoints() {

@@ -379,6 +379,27 @@ fn item10_flags() {
     let mine = std::fs::read_to_string(&csv).unwrap();
     let bundle = std::fs::read_to_string(b.join("response.csv")).unwrap();
     assert_eq!(mine, bundle);
+    // A stiff network: the default grid follows the dynamics, so the 2 µs resonance of a
+    // 10 s record is sampled (a uniform grid of 2001 points steps 5 ms at a time).
+    let stiff = write(
+        &dir,
+        "stiff.toml",
+        "[network]\npoles = [\"-0.5\", \"-300k+400kj\", \"-300k-400kj\"]\nzeros = [\"-2\"]\ngain = \"62.5G\"\n",
+    );
+    run(&[
+        "response",
+        stiff.to_str().unwrap(),
+        "--csv",
+        csv.to_str().unwrap(),
+    ]);
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let near = text
+        .lines()
+        .skip(1)
+        .filter_map(|l| l.split(',').next()?.parse::<f64>().ok())
+        .filter(|t| (1e-6..1e-5).contains(t))
+        .count();
+    assert!(near >= 50, "{near} rows between 1 and 10 µs");
     // Time constants only: the unit residues are said.
     let t = write(&dir, "tc.toml", "[network]\ntime_constants = [\"1 ms\"]\n");
     let o = run(&[

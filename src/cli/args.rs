@@ -54,6 +54,10 @@ pub enum Command {
         /// Number of uniform grid points over the run (breakpoints are added).
         #[arg(long, default_value_t = 2001)]
         points: usize,
+        /// Time grid: "dynamics" adds log-spaced points (up to 4000) that follow the fast
+        /// dynamics to the uniform points; "uniform" keeps only the uniform ones.
+        #[arg(long, value_enum, default_value_t = Grid::Dynamics)]
+        grid: Grid,
         /// Use the scenario's own [pulse] instead of the planned pulse (the planned one is the
         /// default, the same pulse as the report bundle's response.csv).
         #[arg(long)]
@@ -71,6 +75,15 @@ pub enum Command {
         /// The shell to complete in.
         shell: clap_complete::Shell,
     },
+}
+
+/// The response table's time grid.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum Grid {
+    /// Uniform points over the run, plus log-spaced points following the dynamics.
+    Dynamics,
+    /// Uniform points only (plus the pulse's breakpoints).
+    Uniform,
 }
 
 /// Options shared by `plan` and `assess`.

@@ -141,7 +141,7 @@ pub(crate) fn assess(file: &Path, common: &Common, quiet: bool) -> Result<Outcom
 pub(crate) fn response(
     file: &Path,
     csv: &Path,
-    points: usize,
+    (points, grid): (usize, super::args::Grid),
     given: bool,
     quiet: bool,
 ) -> Result<Outcome> {
@@ -180,7 +180,13 @@ pub(crate) fn response(
     } else {
         indicatif::ProgressBar::hidden()
     };
-    let rows = report::response_rows(&sc.network, &pulse, run, points);
+    let logs = match grid {
+        super::args::Grid::Dynamics => {
+            report::log_times(&sc.network, &pulse, run, report::LOG_POINTS.min(points))
+        }
+        super::args::Grid::Uniform => Vec::new(),
+    };
+    let rows = report::response_rows(&sc.network, &pulse, run, points, &logs);
     report::write_response_csv(csv, &rows)
         .with_context(|| format!("cannot write {}", csv.display()))?;
     spin.finish_and_clear();

@@ -7,7 +7,7 @@ mod output;
 mod recover;
 mod starter;
 
-pub use args::{Cli, Command, Common};
+pub use args::{Cli, Command, Common, Grid};
 pub use output::{InputError, Outcome, Worded};
 pub use recover::{RecoverArgs, settings_from_scenario};
 pub use starter::starter_scenario;
@@ -52,8 +52,9 @@ pub fn run(cli: Cli) -> Result<Outcome> {
             file,
             csv,
             points,
+            grid,
             given,
-        } => commands::response(&file, &csv, points, given, quiet),
+        } => commands::response(&file, &csv, (points, grid), given, quiet),
         Command::Recover(args) => recover::run(&args, quiet),
         Command::New { name } => starter::new_scenario(&name),
         Command::Completions { shell } => {

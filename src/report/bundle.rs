@@ -74,8 +74,19 @@ pub fn write_bundle_with(
     }
     let html = super::html::plan_html(sc, out, &figures);
     written.push(bundle.write("report.html", html.as_bytes())?);
-    let rows =
-        super::csv_out::response_rows(&sc.network, &out.pulse, out.prep.run, RESPONSE_POINTS);
+    let logs = super::csv_out::log_times(
+        &sc.network,
+        &out.pulse,
+        out.prep.run,
+        super::csv_out::LOG_POINTS.min(RESPONSE_POINTS),
+    );
+    let rows = super::csv_out::response_rows(
+        &sc.network,
+        &out.pulse,
+        out.prep.run,
+        RESPONSE_POINTS,
+        &logs,
+    );
     super::csv_out::write_response_csv(&bundle.path("response.csv"), &rows)?;
     written.push(bundle.final_path("response.csv"));
     let json = serde_json::to_string_pretty(&super::json::plan_json(sc, out, &[]))

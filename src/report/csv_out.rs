@@ -11,11 +11,34 @@ use crate::pulse::Trapezoid;
 use crate::response::{FreeResponse, Modal};
 use std::path::Path;
 
+/// The most log-spaced points the response table adds to its uniform grid.
+pub const LOG_POINTS: usize = 4000;
+
+/// Log-spaced times from a thousandth of the fastest time scale (or of the pulse, when that is
+/// shorter) to the run: they follow the dynamics, which a uniform grid over a long run may step
+/// right over (a microsecond resonance in a ten-second record).
+pub fn log_times(net: &Network, pulse: &Trapezoid, run: f64, count: usize) -> Vec<f64> {
+    let fast = net.tau_fast().min(pulse.end()).max(run * 1e-15);
+    let start = (fast * 1e-3).min(run / 10.0);
+    if count < 2 || !(start > 0.0 && run > start) {
+        return Vec::new();
+    }
+    let ratio = (run / start).powf(1.0 / (count - 1) as f64);
+    (0..count).map(|k| start * ratio.powi(k as i32)).collect()
+}
+
 /// Rows of the response table: t, ideal h(t), y(t)/area, error, h(t − c), aligned error.
 ///
 /// `points` uniform points over [0, run] (at most [`crate::response::MAX_GRID_POINTS`]; more
-/// are clamped to it), plus the pulse's breakpoints and 63 points across the pulse.
-pub fn response_rows(net: &Network, pulse: &Trapezoid, run: f64, points: usize) -> Vec<[f64; 6]> {
+/// are clamped to it), plus the pulse's breakpoints, 63 points across the pulse, and `extra`
+/// times (e.g. [`log_times`]), each evaluated exactly.
+pub fn response_rows(
+    net: &Network,
+    pulse: &Trapezoid,
+    run: f64,
+    points: usize,
+    extra_times: &[f64],
+) -> Vec<[f64; 6]> {
     let n = points.clamp(1, crate::response::MAX_GRID_POINTS);
     let span = (n - 1).max(1) as f64;
     let uniform_t = |k: usize| run * k as f64 / span;
@@ -23,7 +46,8 @@ pub fn response_rows(net: &Network, pulse: &Trapezoid, run: f64, points: usize) 
     let end = pulse.end();
     let mut extra: Vec<f64> = pulse.breakpoints().iter().map(|b| b.0).collect();
     extra.extend((1..64).map(|k| end * k as f64 / 64.0));
-    extra.retain(|t| *t <= run);
+    extra.extend_from_slice(extra_times);
+    extra.retain(|t| (0.0..=run).contains(t));
     extra.sort_by(f64::total_cmp);
     extra.dedup();
     let modal = Modal::new(net);

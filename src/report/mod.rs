@@ -15,7 +15,7 @@ mod text;
 pub mod words;
 
 pub use bundle::{BundleOptions, write_bundle, write_bundle_with};
-pub use csv_out::{response_rows, write_response_csv};
+pub use csv_out::{LOG_POINTS, log_times, response_rows, write_response_csv};
 pub use files::write_atomic;
 pub use html::plan_html;
 pub use json::{assess_json, plan_json};
