@@ -88,6 +88,19 @@ fn plans_never_exceed_a_stated_limit() {
         } else {
             assert!(b.capture.points as f64 <= c.max_points.unwrap(), "{ctx}");
         }
+        // Rounding to the generator's grid never pushes a met budget over: only its
+        // shortest width or fastest edge may.
+        let planned = &out.ideal_pulse;
+        let forced = planned.width_50() < g.min_width.unwrap() * tol
+            || planned.rise_10_90() < g.min_edge.unwrap() * tol;
+        if !forced {
+            assert!(
+                !out.warnings
+                    .iter()
+                    .any(|w| w.code() == "generator-too-slow"),
+                "{ctx}"
+            );
+        }
         // Timing is on the generator's grid.
         let step = g.time_step.unwrap();
         let on_grid = |t: f64| ((t / step) - (t / step).round()).abs() < 1e-6;

@@ -106,17 +106,18 @@ impl Generator {
     }
 
     /// Round a time to the resolution while staying within [lo, hi]: the nearest multiple,
-    /// moved one step inwards when rounding crossed a limit.
+    /// moved one step inwards when rounding crossed a limit (lo winning when no multiple fits).
     pub fn fit_time(&self, t: f64, lo: f64, hi: f64) -> f64 {
         let Some(step) = self.time_step.filter(|&s| s > 0.0) else {
             return t;
         };
         let mut r = self.round_time(t);
-        if r < lo * (1.0 - 1e-12) {
-            r = (lo / step - 1e-9).ceil() * step;
-        }
         if r > hi * (1.0 + 1e-12) {
             r = ((hi / step + 1e-9).floor() * step).max(step);
+        }
+        // The lower limit wins when no multiple lies in [lo, hi] (a generator limit is hard).
+        if r < lo * (1.0 - 1e-12) {
+            r = (lo / step - 1e-9).ceil() * step;
         }
         r
     }

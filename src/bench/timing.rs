@@ -32,10 +32,15 @@ pub fn fit(planned: &Trapezoid, gen_: &Generator) -> TimingFit {
     let edge0 = planned.rise_10_90().max(planned.fall_10_90());
     let lo_edge = gen_.min_edge.unwrap_or(0.0);
     let hi_edge = gen_.max_edge.unwrap_or(f64::INFINITY);
-    let edge = gen_.fit_time(edge0.clamp(lo_edge, hi_edge), lo_edge, hi_edge);
+    // Rounding to the resolution never widens the pulse nor slows its edges beyond the plan
+    // (the budget search returned the widest width meeting the budget); only the generator's
+    // shortest width and fastest edge can.
+    let edge_want = edge0.clamp(lo_edge, hi_edge);
+    let edge = gen_.fit_time(edge_want, lo_edge, edge_want);
     // A trapezoid needs width ≥ full ramp (no negative flat top).
     let lo_width = gen_.min_width.unwrap_or(0.0).max(edge / TEN_NINETY);
-    let width = gen_.fit_time(width0.max(lo_width), lo_width, f64::INFINITY);
+    let width_want = width0.max(lo_width);
+    let width = gen_.fit_time(width_want, lo_width, width_want);
     let note = (width != width0 || edge != edge0).then_some(Note::TimingFitted {
         width_from: width0,
         width_to: width,
