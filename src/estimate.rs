@@ -269,7 +269,7 @@ fn refine_max(f: &dyn Fn(f64) -> f64, mut a: f64, mut b: f64) -> (f64, f64) {
             d = a + g * (b - a);
             fd = f(d);
         }
-        if (b - a) <= 1e-13 * b.abs() {
+        if (b - a) <= 1e-9 * b.abs() {
             break;
         }
     }
@@ -596,7 +596,7 @@ impl Estimator {
         match metric {
             Metric::T0 => self.readings(pulse).0.rel.abs(),
             Metric::T0Aligned => self.readings(pulse).1.rel.abs(),
-            Metric::Window => self.window(pulse, run).max_rel,
+            Metric::Window => self.window_with(pulse, run, false).max_rel,
         }
     }
 
@@ -607,6 +607,11 @@ impl Estimator {
 
     /// Window errors over [end, run].
     pub fn window(&self, pulse: &Trapezoid, run: f64) -> WindowError {
+        self.window_with(pulse, run, true)
+    }
+
+    /// Window errors; the RMS (an exact Gram sum over pairs of modes) only when asked for.
+    fn window_with(&self, pulse: &Trapezoid, run: f64, with_rms: bool) -> WindowError {
         let end = pulse.end();
         if run <= end {
             return WindowError {
@@ -627,30 +632,27 @@ impl Estimator {
         );
         let err = |t: f64| e.at(t);
         let span = run - end;
-        let rms_rel = (e.integral_square(span) / span).sqrt();
-        // Uniform samples plus geometric points near the end, where the fast modes move.
-        let n = window_points(self.modal_fastest(), span);
-        let dt = span / (n - 1) as f64;
-        let eu = e.uniform(end, dt, n);
-        let mut best = (0.0, end);
-        for (k, v) in eu.iter().enumerate() {
-            if v.abs() > best.0 {
-                best = (v.abs(), end + k as f64 * dt);
-            }
-        }
+        let rms_rel = if with_rms {
+            (e.integral_square(span) / span).sqrt()
+        } else {
+            0.0
+        };
+        // Geometric points near the end (where the fast modes move), then a uniform scan in
+        // segments whose step follows the modes still alive.
         let fast = 1.0 / self.modal_fastest();
         let start = (fast * 1e-4).min(span / 10.0);
-        let ratio = (span / start).powf(1.0 / 600.0);
-        for k in 0..=600 {
+        let ratio = (span / start).powf(1.0 / 120.0);
+        let mut best = (err(end).abs(), end);
+        for k in 0..=120 {
             let t = end + start * ratio.powi(k);
             let e = err(t).abs();
             if e > best.0 {
                 best = (e, t);
             }
         }
-        let e_end = err(end).abs();
-        if e_end >= best.0 {
-            best = (e_end, end);
+        let (scanned, dt) = scan_max(&e, end, span, WINDOW_ALIVE * best.0);
+        if scanned.0 > best.0 {
+            best = scanned;
         }
         // Refine around the best sample.
         let half = (best.1 - end).max(dt) * 0.05 + dt;
@@ -768,6 +770,55 @@ fn window_points(fastest: f64, span: f64) -> usize {
     let per_scale = 8.0;
     let want = span * fastest * per_scale;
     (want.ceil() as usize).clamp(2000, 200_000)
+}
+
+/// Modes whose envelope is below this share of the largest error seen so far are left out of
+/// the window scan (they cannot move its maximum by more than that).
+const WINDOW_ALIVE: f64 = 1e-9;
+
+/// The largest |e| on a uniform scan of [end, end + span], in segments between the modes'
+/// lifetimes: each segment sums only the modes still above `floor` and steps by 1/8 of their
+/// fastest time scale (at least 2000 points over the span, at most 200 000 per segment).
+/// Returns (|e|, t) at the maximum and the step there.
+fn scan_max(e: &FreeResponse, end: f64, span: f64, floor: f64) -> ((f64, f64), f64) {
+    let life = e.lifetimes(floor.max(f64::MIN_POSITIVE));
+    // Segment edges where the fastest mode still alive slows by at least half: fewer segments,
+    // each still stepping by the fastest of its modes.
+    let mut by_life: Vec<(f64, f64)> = life.iter().map(|&(w, l)| (l, w)).collect();
+    by_life.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let mut edges = vec![0.0];
+    let mut omega_here = by_life.iter().map(|x| x.1).fold(0.0, f64::max);
+    for (i, &(l, _)) in by_life.iter().enumerate() {
+        let after = by_life[i + 1..].iter().map(|x| x.1).fold(0.0, f64::max);
+        if l > 0.0 && l < span && after < 0.5 * omega_here {
+            edges.push(l);
+            omega_here = after;
+        }
+    }
+    edges.push(span);
+    let mut best = ((0.0, end), span / 1999.0);
+    for w in edges.windows(2) {
+        let (a, b) = (w[0], w[1]);
+        let keep: Vec<bool> = life.iter().map(|l| l.1 > a).collect();
+        let omega = life
+            .iter()
+            .zip(&keep)
+            .filter(|(_, k)| **k)
+            .map(|(l, _)| l.0)
+            .fold(0.0, f64::max);
+        let n = window_points(omega.max(f64::MIN_POSITIVE), span)
+            .min(((b - a) * omega * 8.0).ceil() as usize + 2)
+            .max(((b - a) / span * 2000.0).ceil() as usize + 2)
+            .min(200_000);
+        let dt = (b - a) / (n - 1) as f64;
+        let part = e.with_terms(&keep);
+        for (k, v) in part.uniform(end + a, dt, n).iter().enumerate() {
+            if v.abs() > best.0.0 {
+                best = ((v.abs(), end + a + k as f64 * dt), dt);
+            }
+        }
+    }
+    best
 }
 
 /// For networks with unknown residues: report the worst mode per metric.

@@ -514,7 +514,7 @@ impl Serialize for Budget {
 }
 
 /// Search for the widest pulse whose metric stays within the budget, with all narrower widths
-/// also within it (the first crossing, scanning up in steps of 2^(1/4), then bisection on log
+/// also within it (the first crossing, scanning up in steps of √2, then bisection on log
 /// width), never wider than the cap ([`width_cap`]).
 pub fn widest_within(
     est: &Estimator,
@@ -527,7 +527,7 @@ pub fn widest_within(
         let run = prep.run.max(p.end() * 2.0);
         est.metric(&p, settings.metric, run)
     };
-    let step = 2f64.powf(0.25);
+    let step = 2f64.sqrt();
     let floor = prep.tau_plan * 1e-9;
     let cap = width_cap(prep, settings);
     let ceiling = cap.width(prep.tau_plan);
@@ -571,7 +571,8 @@ pub fn widest_within(
             hi = next;
         }
     }
-    while hi / lo > 1.0 + 1e-7 {
+    // 10⁻⁵ of the width: finer than any generator sets a width.
+    while hi / lo > 1.0 + 1e-5 {
         let mid = (lo * hi).sqrt();
         if f(mid) <= budget {
             lo = mid;

@@ -628,6 +628,21 @@ impl FreeResponse {
             .sum()
     }
 
+    /// The same response with only the terms whose flag is set (a mode whose envelope has
+    /// fallen below what matters can be left out of a scan).
+    pub fn with_terms(&self, keep: &[bool]) -> FreeResponse {
+        FreeResponse {
+            anchor: self.anchor,
+            terms: self
+                .terms
+                .iter()
+                .zip(keep)
+                .filter(|(_, k)| **k)
+                .map(|(t, _)| t.clone())
+                .collect(),
+        }
+    }
+
     /// For each mode term, its natural frequency |p| and the time after the anchor beyond
     /// which its envelope w·e^(Re p·τ)·Σ|q_k|τ^k stays below `floor` (0 for a term that never
     /// reaches it; infinite for one that does not decay). Past τ₀ = (degree)/|Re p| every
