@@ -141,36 +141,17 @@ impl Trapezoid {
 
     /// Raw moments ∫ tⁿ u(t) dt for n = 0, 1, 2 (exact for each linear piece).
     pub fn moments(&self) -> [f64; 3] {
-        let mut m = [0.0; 3];
-        for w in self.breakpoints().windows(2) {
-            let ((ta, ua), (tb, ub)) = (w[0], w[1]);
-            let h = tb - ta;
-            if h <= 0.0 {
-                continue;
-            }
-            // u(t) = ua + (ub − ua)(t − ta)/h on [ta, tb]; integrate tⁿ·u exactly via Simpson,
-            // which is exact for polynomials up to degree 3.
-            let tm = (ta + tb) / 2.0;
-            let um = (ua + ub) / 2.0;
-            for (n, mn) in m.iter_mut().enumerate() {
-                let f = |t: f64, u: f64| t.powi(n as i32) * u;
-                *mn += h / 6.0 * (f(ta, ua) + 4.0 * f(tm, um) + f(tb, ub));
-            }
-        }
-        m
+        moments_of(&self.breakpoints())
     }
 
     /// Centroid: first moment / area.
     pub fn centroid(&self) -> f64 {
-        let m = self.moments();
-        m[1] / m[0]
+        centroid_of(&self.moments())
     }
 
     /// Variance of the pulse shape about its centroid (second central moment / area).
     pub fn variance(&self) -> f64 {
-        let m = self.moments();
-        let c = m[1] / m[0];
-        (m[2] / m[0] - c * c).max(0.0)
+        variance_of(&self.moments())
     }
 
     /// Value of the waveform at time t.
@@ -229,25 +210,9 @@ impl Trapezoid {
         total
     }
 
-    /// ∫ τⁿ x(τ) dτ, exact: on a piece u = ua + b(τ − ta), ∫ τⁿ u = [(ua − b·ta)τⁿ⁺¹/(n+1) +
-    /// b τⁿ⁺²/(n+2)] between the piece's ends.
+    /// ∫ τⁿ x(τ) dτ, exact (see [`moment_of`]).
     pub fn raw_moment(&self, n: usize) -> f64 {
-        let mut m = 0.0;
-        for w in self.breakpoints().windows(2) {
-            let ((ta, ua), (tb, ub)) = (w[0], w[1]);
-            let h = tb - ta;
-            if h <= 0.0 {
-                continue;
-            }
-            let b = (ub - ua) / h;
-            let a0 = ua - b * ta;
-            let prim = |t: f64| {
-                a0 * t.powi(n as i32 + 1) / (n as f64 + 1.0)
-                    + b * t.powi(n as i32 + 2) / (n as f64 + 2.0)
-            };
-            m += prim(tb) - prim(ta);
-        }
-        m
+        moment_of(&self.breakpoints(), 0.0, n)
     }
 
     /// The transform about the centroid, per unit area: P̃(s) = X(s)·e^(s·c)/area
@@ -258,22 +223,7 @@ impl Trapezoid {
 
     /// ∫ (τ − origin)ⁿ x(τ) dτ / area, exact per piece.
     pub fn moment_about(&self, origin: f64, n: usize) -> f64 {
-        let mut m = 0.0;
-        for w in self.breakpoints().windows(2) {
-            let ((ta, ua), (tb, ub)) = ((w[0].0 - origin, w[0].1), (w[1].0 - origin, w[1].1));
-            let h = tb - ta;
-            if h <= 0.0 {
-                continue;
-            }
-            let b = (ub - ua) / h;
-            let a0 = ua - b * ta;
-            let prim = |t: f64| {
-                a0 * t.powi(n as i32 + 1) / (n as f64 + 1.0)
-                    + b * t.powi(n as i32 + 2) / (n as f64 + 2.0)
-            };
-            m += prim(tb) - prim(ta);
-        }
-        m / self.area()
+        moment_of(&self.breakpoints(), origin, n) / self.area()
     }
 
     /// The terms a first-order reading leaves out, for one mode e^(pt) (exact, no cancellation):
@@ -316,6 +266,43 @@ impl Trapezoid {
         };
         Some((series(c, 3), series(end, 3)))
     }
+}
+
+/// ∫ (τ − origin)ⁿ x(τ) dτ of a piecewise-linear waveform given by breakpoints (t, u), exact:
+/// on a piece u = a₀ + bτ (τ from the origin) the primitive is a₀τⁿ⁺¹/(n+1) + bτⁿ⁺²/(n+2).
+pub fn moment_of(breakpoints: &[(f64, f64)], origin: f64, n: usize) -> f64 {
+    let mut m = 0.0;
+    for w in breakpoints.windows(2) {
+        let ((ta, ua), (tb, ub)) = ((w[0].0 - origin, w[0].1), (w[1].0 - origin, w[1].1));
+        let h = tb - ta;
+        if h <= 0.0 {
+            continue;
+        }
+        let b = (ub - ua) / h;
+        let a0 = ua - b * ta;
+        let prim = |t: f64| {
+            a0 * t.powi(n as i32 + 1) / (n as f64 + 1.0)
+                + b * t.powi(n as i32 + 2) / (n as f64 + 2.0)
+        };
+        m += prim(tb) - prim(ta);
+    }
+    m
+}
+
+/// The raw moments n = 0, 1, 2 of a piecewise-linear waveform.
+pub fn moments_of(breakpoints: &[(f64, f64)]) -> [f64; 3] {
+    [0, 1, 2].map(|n| moment_of(breakpoints, 0.0, n))
+}
+
+/// Centroid from the raw moments: m₁/m₀.
+pub fn centroid_of(m: &[f64; 3]) -> f64 {
+    m[1] / m[0]
+}
+
+/// Variance about the centroid from the raw moments: m₂/m₀ − c² (never negative).
+pub fn variance_of(m: &[f64; 3]) -> f64 {
+    let c = m[1] / m[0];
+    (m[2] / m[0] - c * c).max(0.0)
 }
 
 /// Serialised with both conventions' figures (ramp view and IEEE Std 181 generator view) and

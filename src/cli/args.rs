@@ -18,25 +18,7 @@ pub struct Cli {
 #[derive(Debug, clap::Subcommand)]
 pub enum Command {
     /// Recommend a pulse for the scenario's network (rule of thumb, or widest within the budget).
-    Plan {
-        /// Scenario file (TOML).
-        file: PathBuf,
-        #[command(flatten)]
-        common: Common,
-        /// Also write the report bundle (figures, report.html, response.csv, plan.json) to
-        /// out/<scenario name>/.
-        #[arg(long)]
-        report: bool,
-        /// Folder for the report bundle instead of out/<scenario name>/ (implies --report).
-        #[arg(long, value_name = "DIR")]
-        out: Option<PathBuf>,
-        /// Monte Carlo samples over the parts' tolerances (overrides [plan] samples).
-        #[arg(long, value_name = "N")]
-        samples: Option<usize>,
-        /// Seed of the Monte Carlo draw (overrides [plan] seed).
-        #[arg(long, value_name = "S")]
-        seed: Option<u64>,
-    },
+    Plan(PlanArgs),
     /// Evaluate the pulse given in the scenario's [pulse] section.
     Assess {
         /// Scenario file (TOML).
@@ -75,6 +57,28 @@ pub enum Command {
         /// The shell to complete in.
         shell: clap_complete::Shell,
     },
+}
+
+/// What `plan` is asked for.
+#[derive(Debug, clap::Args)]
+pub struct PlanArgs {
+    /// Scenario file (TOML).
+    pub file: PathBuf,
+    #[command(flatten)]
+    pub common: Common,
+    /// Also write the report bundle (figures, report.html, response.csv, plan.json) to
+    /// out/<scenario name>/.
+    #[arg(long)]
+    pub report: bool,
+    /// Folder for the report bundle instead of out/<scenario name>/ (implies --report).
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Monte Carlo samples over the parts' tolerances (overrides [plan] samples).
+    #[arg(long, value_name = "N")]
+    pub samples: Option<usize>,
+    /// Seed of the Monte Carlo draw (overrides [plan] seed).
+    #[arg(long, value_name = "S")]
+    pub seed: Option<u64>,
 }
 
 /// The response table's time grid.

@@ -1,6 +1,6 @@
 //! The commands: each reads its scenario, runs the pipeline and prints through `output`.
 
-use super::args::Common;
+use super::args::{Common, PlanArgs};
 use super::output::{
     InputError, Outcome, Progress, Worded, emit, outcome, report_out, warn_stderr,
 };
@@ -8,7 +8,7 @@ use crate::report;
 use crate::scenario::{self, Scenario};
 use crate::units::{self, Dim};
 use anyhow::{Context, Result, bail};
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 fn load(file: &Path) -> Result<Scenario> {
     scenario::load(file).map_err(|e| InputError(e.to_string()).into())
@@ -46,22 +46,6 @@ fn monte_carlo(sc: &mut Scenario, samples: Option<usize>, seed: Option<u64>) -> 
         sc.plan.seed = s;
     }
     Ok(())
-}
-
-/// What `plan` was asked for besides the scenario.
-pub(crate) struct PlanArgs {
-    /// The scenario file.
-    pub file: PathBuf,
-    /// JSON and cursors.
-    pub common: Common,
-    /// Write the bundle.
-    pub report: bool,
-    /// The bundle's folder.
-    pub out: Option<PathBuf>,
-    /// Monte Carlo samples.
-    pub samples: Option<usize>,
-    /// Monte Carlo seed.
-    pub seed: Option<u64>,
 }
 
 /// `pulseplan plan`.

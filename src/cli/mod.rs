@@ -7,7 +7,7 @@ mod output;
 mod recover;
 mod starter;
 
-pub use args::{Cli, Command, Common, Grid};
+pub use args::{Cli, Command, Common, Grid, PlanArgs};
 pub use output::{InputError, Outcome, Worded};
 pub use recover::{RecoverArgs, settings_from_scenario};
 pub use starter::starter_scenario;
@@ -29,24 +29,7 @@ pub fn install_interrupt_cleanup() {
 pub fn run(cli: Cli) -> Result<Outcome> {
     let quiet = cli.quiet;
     match cli.command {
-        Command::Plan {
-            file,
-            common,
-            report,
-            out,
-            samples,
-            seed,
-        } => commands::plan(
-            commands::PlanArgs {
-                file,
-                common,
-                report,
-                out,
-                samples,
-                seed,
-            },
-            quiet,
-        ),
+        Command::Plan(args) => commands::plan(args, quiet),
         Command::Assess { file, common } => commands::assess(&file, &common, quiet),
         Command::Response {
             file,

@@ -45,17 +45,7 @@ impl AppliedPulse {
 
     /// Raw moments ∫ tⁿ x dt, n = 0, 1, 2 (Simpson on each linear piece, exact there).
     pub fn moments(&self) -> [f64; 3] {
-        let mut m = [0.0; 3];
-        for w in self.breakpoints.windows(2) {
-            let ((ta, ua), (tb, ub)) = (w[0], w[1]);
-            let h = tb - ta;
-            let (tm, um) = ((ta + tb) / 2.0, (ua + ub) / 2.0);
-            for (n, mn) in m.iter_mut().enumerate() {
-                let f = |t: f64, u: f64| t.powi(n as i32) * u;
-                *mn += h / 6.0 * (f(ta, ua) + 4.0 * f(tm, um) + f(tb, ub));
-            }
-        }
-        m
+        crate::pulse::moments_of(&self.breakpoints)
     }
 
     /// Area ∫ x dt (V·s or A·s).
@@ -65,15 +55,12 @@ impl AppliedPulse {
 
     /// Centroid, s since time zero.
     pub fn centroid(&self) -> f64 {
-        let m = self.moments();
-        m[1] / m[0]
+        crate::pulse::centroid_of(&self.moments())
     }
 
     /// Variance of the shape about its centroid, s².
     pub fn variance(&self) -> f64 {
-        let m = self.moments();
-        let c = m[1] / m[0];
-        (m[2] / m[0] - c * c).max(0.0)
+        crate::pulse::variance_of(&self.moments())
     }
 
     /// Input value at time t (linear between breakpoints, zero outside).

@@ -69,13 +69,15 @@ impl CircuitFunction {
 
 /// Slowest first; conjugate pairs adjacent with the upper member first.
 pub(crate) fn sort_modes(modes: &mut [CircuitMode]) {
-    modes.sort_by(|a, b| {
-        a.pole
-            .norm()
-            .total_cmp(&b.pole.norm())
-            .then(b.pole.im.total_cmp(&a.pole.im))
-            .then(b.pole.re.total_cmp(&a.pole.re))
-    });
+    modes.sort_by(|a, b| pole_order(a.pole, b.pole));
+}
+
+/// The order modes are listed in: slowest |p| first, a conjugate pair's upper member first.
+pub fn pole_order(a: num_complex::Complex64, b: num_complex::Complex64) -> std::cmp::Ordering {
+    a.norm()
+        .total_cmp(&b.norm())
+        .then(b.im.total_cmp(&a.im))
+        .then(b.re.total_cmp(&a.re))
 }
 
 /// Drop modes whose contribution is at rounding level both in the impulse response

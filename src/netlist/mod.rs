@@ -68,7 +68,7 @@ mod symmetric;
 mod tests;
 mod zeros;
 
-pub use function::{CircuitFunction, CircuitMode};
+pub use function::{CircuitFunction, CircuitMode, pole_order};
 pub use spec::{
     NetlistError, NetlistSpec, Output, Part, PartKind, StateSpace, Stimulus, is_ground,
 };

@@ -556,13 +556,7 @@ fn build_modes(groups: &[(Complex64, usize)], residues: Vec<Vec<Complex64>>) -> 
 
 /// Slowest first; conjugate pairs adjacent with the upper member first.
 fn sort_modes(modes: &mut [Mode]) {
-    modes.sort_by(|a, b| {
-        a.pole
-            .norm()
-            .total_cmp(&b.pole.norm())
-            .then(b.pole.im.total_cmp(&a.pole.im))
-            .then(b.pole.re.total_cmp(&a.pole.re))
-    });
+    modes.sort_by(|a, b| crate::netlist::pole_order(a.pole, b.pole));
 }
 
 #[cfg(test)]

@@ -91,32 +91,56 @@ struct Tolerances<'a> {
     robust: &'a Option<Robust>,
 }
 
+/// What `plan` and `assess` both print.
 #[derive(Serialize)]
-struct PlanDoc<'a> {
+struct Common<'a> {
     command: &'static str,
     scenario: ScenarioEcho<'a>,
     network: &'a NetworkFacts,
     pulse: PulseRun<'a>,
     error: &'a ErrorEstimate,
     bench: Value,
-    tolerance: Option<Tolerances<'a>>,
-    notes: Vec<String>,
-    notices: &'a [Note],
-    plan: PlanDetail<'a>,
     at: &'a [Cursor],
     warnings: Vec<WordedWarning<'a>>,
 }
 
 #[derive(Serialize)]
-struct AssessDoc<'a> {
+struct PlanDoc<'a> {
+    #[serde(flatten)]
+    common: Common<'a>,
+    tolerance: Option<Tolerances<'a>>,
+    notes: Vec<String>,
+    notices: &'a [Note],
+    plan: PlanDetail<'a>,
+}
+
+/// The fields both commands share, for one prepared network, pulse and bench view.
+#[allow(clippy::too_many_arguments)]
+fn common<'a>(
     command: &'static str,
-    scenario: ScenarioEcho<'a>,
-    network: &'a NetworkFacts,
+    sc: &'a Scenario,
+    prep: &'a crate::plan::Prepared,
     pulse: PulseRun<'a>,
     error: &'a ErrorEstimate,
-    bench: Value,
+    bench: &crate::bench::BenchPlan,
     at: &'a [Cursor],
-    warnings: Vec<WordedWarning<'a>>,
+    warnings: &'a [Warning],
+) -> Common<'a> {
+    let basis = words::run_basis_text(&prep.run_basis);
+    let cx = Context {
+        drive: sc.drive,
+        run_basis: &basis,
+    };
+    Common {
+        command,
+        scenario: ScenarioEcho::of(sc),
+        network: &prep.facts,
+        pulse,
+        error,
+        bench: bench_json(bench, sc.drive),
+        at,
+        warnings: worded_warnings(warnings, &cx),
+    }
 }
 
 /// The bench part: the derived fields plus the worded scaling reasons and notes.
@@ -138,21 +162,22 @@ fn bench_json(b: &crate::bench::BenchPlan, drive: Signal) -> Value {
 /// JSON for `plan`.
 pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
     let run = out.prep.run;
-    let basis = words::run_basis_text(&out.prep.run_basis);
-    let cx = Context {
-        drive: sc.drive,
-        run_basis: &basis,
+    let pulse = PulseRun {
+        pulse: &out.pulse,
+        run,
     };
+    let common = common(
+        "plan",
+        sc,
+        &out.prep,
+        pulse,
+        &out.estimate,
+        &out.bench,
+        cs,
+        &out.warnings,
+    );
     let doc = PlanDoc {
-        command: "plan",
-        scenario: ScenarioEcho::of(sc),
-        network: &out.prep.facts,
-        pulse: PulseRun {
-            pulse: &out.pulse,
-            run,
-        },
-        error: &out.estimate,
-        bench: bench_json(&out.bench, sc.drive),
+        common,
         tolerance: out.tolerance.as_ref().map(|report| Tolerances {
             report,
             robust: &out.robust,
@@ -172,34 +197,28 @@ pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
                 error: &out.rule_estimate,
             },
             target: &out.budget,
-            run_basis: basis.clone(),
+            run_basis: words::run_basis_text(&out.prep.run_basis),
             run_rule: &out.prep.run_basis,
         },
-        at: cs,
-        warnings: worded_warnings(&out.warnings, &cx),
     };
     serde_json::to_value(doc).unwrap_or(Value::Null)
 }
 
 /// JSON for `assess`.
 pub fn assess_json(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> Value {
-    let basis = words::run_basis_text(&out.prep.run_basis);
-    let cx = Context {
-        drive: sc.drive,
-        run_basis: &basis,
+    let pulse = PulseRun {
+        pulse: &out.pulse,
+        run: out.run,
     };
-    let doc = AssessDoc {
-        command: "assess",
-        scenario: ScenarioEcho::of(sc),
-        network: &out.prep.facts,
-        pulse: PulseRun {
-            pulse: &out.pulse,
-            run: out.run,
-        },
-        error: &out.estimate,
-        bench: bench_json(&out.bench, sc.drive),
-        at: cs,
-        warnings: worded_warnings(&out.warnings, &cx),
-    };
+    let doc = common(
+        "assess",
+        sc,
+        &out.prep,
+        pulse,
+        &out.estimate,
+        &out.bench,
+        cs,
+        &out.warnings,
+    );
     serde_json::to_value(doc).unwrap_or(Value::Null)
 }
