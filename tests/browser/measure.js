@@ -1,0 +1,44 @@
+// Measurements the browser check takes inside Chromium. Evaluated through the DevTools
+// protocol in the page being checked (never written into the files under test); each
+// function returns plain JSON.
+
+// Decode a PNG (base64) and measure it: the luminance variance inside each region
+// [x0, y0, x1, y1] (every second pixel) and how many pixels lie within `tol` (sum of channel
+// differences) of each colour [r, g, b].
+globalThis.ppPixels = async (b64, regions, colours, tol) => {
+  const bytes = Uint8Array.from(atob(b64), (c) => c.charCodeAt(0));
+  const bitmap = await createImageBitmap(new Blob([bytes], { type: "image/png" }));
+  const w = bitmap.width;
+  const h = bitmap.height;
+  const canvas = new OffscreenCanvas(w, h);
+  const g = canvas.getContext("2d");
+  g.drawImage(bitmap, 0, 0);
+  const d = g.getImageData(0, 0, w, h).data;
+  const variance = regions.map(([x0, y0, x1, y1]) => {
+    let n = 0;
+    let s = 0;
+    let s2 = 0;
+    for (let y = Math.max(0, y0); y < Math.min(h, y1); y++) {
+      for (let x = Math.max(0, x0); x < Math.min(w, x1); x += 2) {
+        const i = 4 * (y * w + x);
+        const v = 0.299 * d[i] + 0.587 * d[i + 1] + 0.114 * d[i + 2];
+        n += 1;
+        s += v;
+        s2 += v * v;
+      }
+    }
+    if (n === 0) return 0;
+    const m = s / n;
+    return s2 / n - m * m;
+  });
+  const counts = colours.map(() => 0);
+  for (let i = 0; i < d.length; i += 4) {
+    for (let k = 0; k < colours.length; k++) {
+      const c = colours[k];
+      if (Math.abs(d[i] - c[0]) + Math.abs(d[i + 1] - c[1]) + Math.abs(d[i + 2] - c[2]) <= tol) {
+        counts[k] += 1;
+      }
+    }
+  }
+  return { width: w, height: h, variance, counts };
+};
