@@ -538,3 +538,26 @@ fn html_report_is_self_contained_and_escaped() {
         out.pulse.width_50()
     );
 }
+
+#[test]
+fn html_tables_scroll_in_their_own_boxes_and_cards_give_the_bench_rates() {
+    let (sc, out) = planned(LAG_LEAD, "laglead-cards");
+    let html = report::plan_html(&sc, &out, &[]);
+    let tables = html.matches("<table>").count();
+    assert!(tables >= 5);
+    assert_eq!(
+        html.matches("<div class=\"table-box\"><table>").count(),
+        tables
+    );
+    assert!(html.contains(".table-box { max-width: 100%; overflow-x: auto;"));
+    let period = pulseplan::units::eng(
+        out.bench.period.unwrap().period,
+        pulseplan::units::Dim::Time,
+    );
+    assert!(html.contains(&format!(
+        "<div class=\"k\">period</div><div class=\"v\">{period}</div>"
+    )));
+    assert!(html.contains("<div class=\"k\">sample rate</div>"));
+    // Headings keep with what follows on paper.
+    assert!(html.contains("h1, h2, h3 { break-after: avoid; page-break-after: avoid; }"));
+}

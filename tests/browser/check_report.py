@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Render pulseplan's report bundle in headless Chromium and check that it rendered.
+"""Render pulseplan's report bundle in headless Chromium and check what a reader would see.
 
     python3 tests/browser/check_report.py [--bin PATH] [--keep DIR] [--quiet] [--only NAME]
 
@@ -7,11 +7,19 @@ One headless Chromium (driven over the DevTools protocol, tests/browser/cdp.py) 
 check; measurements are taken by JavaScript evaluated in the page (tests/browser/measure.js),
 so the report stays script-free and no file under test is changed. For each scenario below,
 runs `pulseplan plan FILE --report --out DIR`, then:
-  - report.html holds no http:// or https:// reference, no script and no external stylesheet;
-  - Chromium renders report.html (1200 px wide) with no console errors; the first 1500 px are
-    not blank, and the figures' curve colours appear in a render of the whole page;
-  - each SVG, rendered on its own, has non-blank plot panels: the pixel variance inside every
-    panel rectangle named in the SVG's metadata is well above that of an empty panel.
+
+  report.html
+  - holds no http:// or https:// reference, no script and no external stylesheet;
+  - renders (1200 px wide) with no console errors; the first 1500 px are not blank, and the
+    figures' curve colours appear in a render of the whole page;
+  - nothing sticks out of the window at 700 px and at 1200 px: the page does not scroll
+    sideways, and every element ends inside the window or inside a box that scrolls it;
+  - the summary cards include the repetition period and the sample rate;
+  - printed to PDF (A4, the report's print CSS), no page ends with a heading; every heading
+    keeps with what follows in the print CSS.
+  each figure (SVG, rendered on its own)
+  - renders without console errors; every plot panel named in its metadata is not blank.
+
 Prints one line per check and the final line `N passed, N failed (T s)`; exits 1 on any failure.
 """
 
@@ -33,10 +41,15 @@ SCENARIOS = [
     "scenarios/hydrophone-tank.toml",
     "scenarios/strain-bridge-stiff.toml",
     "scenarios/piezo-stage-driver.toml",
+    # 200 real poles, 185 of them minor: wide tables.
+    "scenarios/rc-line-ladder.toml",
+    # 50 real poles over six decades: 49 zeros in one row, a heading left at a page's foot.
+    "tests/reference/scenarios/order50_interlaced.toml",
 ]
 # Curve colours the figures use (src/report/figures/canvas.rs): predicted, ideal.
 PREDICTED = (0x11, 0x4B, 0x63)
 IDEAL = (0xE3, 0xA2, 0x4F)
+WIDTHS = (700, 1200)
 MEASURE_JS = os.path.join(os.path.dirname(os.path.abspath(__file__)), "measure.js")
 
 passed = 0
@@ -113,6 +126,67 @@ def check_render(name, page, url, work):
     check(n_ideal > 500, f"{name}: ideal-response colour drawn ({n_ideal} px)")
 
 
+def check_layout(name, page, url, work):
+    """Nothing outside the window at each width; the summary cards' contents."""
+    layout = None
+    for width in WIDTHS:
+        errs = load(page, url, width, 900)
+        check(not errs, f"{name} @{width}px: no console errors {errs[:3]}")
+        layout = page.eval("ppLayout()")
+        sw, iw = layout["scrollWidth"], layout["innerWidth"]
+        check(sw <= iw, f"{name} @{width}px: the page does not scroll sideways (content {sw} px, window {iw} px)")
+        check(
+            layout["offenderCount"] == 0,
+            f"{name} @{width}px: every element ends inside the window or a box that scrolls it "
+            f"({layout['offenderCount']} do not: {layout['offenders'][:4]})",
+        )
+        loose = [t for t in layout["tables"] if t["box"] is None or t["boxRight"] > iw + 0.5]
+        check(
+            not loose,
+            f"{name} @{width}px: every table sits in its own box within the window ({len(loose)} do not)",
+        )
+        if width == WIDTHS[0]:
+            page.screenshot(os.path.join(work, f"{name}-{width}px.png"), (0, 0, width, 900))
+    cards = " | ".join(layout["cards"])
+    check("period" in cards.lower(), f"{name}: a summary card gives the repetition period ({cards})")
+    check("sample rate" in cards.lower(), f"{name}: a summary card gives the sample rate ({cards})")
+    return layout["headings"]
+
+
+def pdf_pages(pdf):
+    """Each printed page's non-empty text lines (pdftotext), or None without poppler."""
+    if not shutil.which("pdftotext"):
+        return None
+    r = subprocess.run(["pdftotext", "-layout", pdf, "-"], capture_output=True, text=True)
+    return [[l.strip() for l in p.splitlines() if l.strip()] for p in r.stdout.split("\f")]
+
+
+def check_print(name, page, url, work, headings):
+    """Headings keep with what follows: in the print CSS, and on the printed pages."""
+    load(page, url, 1200, 900)
+    page.media("print")
+    rules = page.eval("ppPrintRules()")
+    loose = [r["text"] for r in rules if r["breakAfter"] != "avoid"]
+    check(not loose, f"{name}: print CSS keeps every heading with what follows (not: {loose[:4]})")
+    page.media("")
+    pdf = os.path.join(work, f"{name}.pdf")
+    page.pdf(pdf)
+    pages = pdf_pages(pdf)
+    if pages is None:
+        print(f"skip  {name}: printed pages not read (pdftotext missing: apt-get install poppler-utils)")
+        return
+    heads = {h for h in headings if h}
+    orphans = [
+        f"page {i + 1}: {lines[-1]!r}"
+        for i, lines in enumerate(pages[:-1])
+        if lines and lines[-1] in heads
+    ]
+    check(
+        len(pages) > 1 and not orphans,
+        f"{name}: no printed page ends with a heading ({len(pages)} pages; {orphans[:3]})",
+    )
+
+
 def svg_panels(svg):
     """Panels named in the figure's metadata: (name, pixel rectangle x0, y0, x1, y1)."""
     m = re.search(r'<metadata id="pulseplan-figure">(.*?)</metadata>', svg, re.S)
@@ -158,6 +232,8 @@ def run_scenario(binary, page, scen, work):
     check_static_html(name, open(html_path, encoding="utf-8").read())
     url = "file://" + os.path.abspath(html_path)
     check_render(name, page, url, work)
+    headings = check_layout(name, page, url, work)
+    check_print(name, page, url, work, headings)
     check_figures(name, page, out, work)
 
 
@@ -165,7 +241,7 @@ def main():
     global verbose
     ap = argparse.ArgumentParser()
     ap.add_argument("--bin", default=os.path.join(ROOT, "target", "release", "pulseplan"))
-    ap.add_argument("--keep", help="keep bundles and screenshots in this folder")
+    ap.add_argument("--keep", help="keep bundles, screenshots and PDFs in this folder")
     ap.add_argument("--quiet", action="store_true")
     ap.add_argument("--only", help="check only the scenarios whose file name contains this")
     args = ap.parse_args()

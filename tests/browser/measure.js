@@ -42,3 +42,56 @@ globalThis.ppPixels = async (b64, regions, colours, tol) => {
   }
   return { width: w, height: h, variance, counts };
 };
+
+// The page's layout at the current window width: does anything stick out of the window?
+// Lists the offenders (elements outside any box that scrolls them whose edges pass the
+// window's), the tables with the width of the box that scrolls each, the summary cards'
+// labels and every heading.
+globalThis.ppLayout = () => {
+  const doc = document.documentElement;
+  const inner = window.innerWidth;
+  const scrolls = (el) => {
+    for (let p = el.parentElement; p; p = p.parentElement) {
+      const o = getComputedStyle(p).overflowX;
+      if (o === "auto" || o === "scroll" || o === "hidden") return p;
+    }
+    return null;
+  };
+  const offenders = [];
+  for (const el of document.body.querySelectorAll("*")) {
+    const r = el.getBoundingClientRect();
+    if (r.width === 0 && r.height === 0) continue;
+    // Inside a box that scrolls, the box keeps it in view; the box itself is checked.
+    if (scrolls(el)) continue;
+    if (r.right > inner + 0.5 || r.left < -0.5) {
+      offenders.push(`${el.tagName.toLowerCase()}${el.className ? "." + el.className : ""} ${Math.round(r.left)}–${Math.round(r.right)} px`);
+    }
+  }
+  const boxes = [...document.querySelectorAll("table")].map((t) => {
+    const box = scrolls(t);
+    return {
+      width: t.getBoundingClientRect().width,
+      box: box ? box.getBoundingClientRect().width : null,
+      boxRight: box ? box.getBoundingClientRect().right : null,
+    };
+  });
+  return {
+    scrollWidth: doc.scrollWidth,
+    bodyScrollWidth: document.body.scrollWidth,
+    innerWidth: inner,
+    offenders: offenders.slice(0, 8),
+    offenderCount: offenders.length,
+    tables: boxes,
+    cards: [...document.querySelectorAll(".cards .card .k")].map((k) => k.textContent.trim()),
+    cardValues: [...document.querySelectorAll(".cards .card .v")].map((k) => k.textContent.trim()),
+    headings: [...document.querySelectorAll("h1, h2, h3")].map((h) => h.textContent.trim()),
+    scrollHeight: doc.scrollHeight,
+  };
+};
+
+// Computed print-relevant styles of the headings (call with print media emulated).
+globalThis.ppPrintRules = () =>
+  [...document.querySelectorAll("h2, h3")].map((h) => {
+    const s = getComputedStyle(h);
+    return { text: h.textContent.trim(), breakAfter: s.breakAfter, pageBreakAfter: s.pageBreakAfter };
+  });
