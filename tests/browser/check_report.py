@@ -18,7 +18,14 @@ runs `pulseplan plan FILE --report --out DIR`, then:
   - printed to PDF (A4, the report's print CSS), no page ends with a heading; every heading
     keeps with what follows in the print CSS.
   each figure (SVG, rendered on its own)
-  - renders without console errors; every plot panel named in its metadata is not blank.
+  - renders without console errors; every plot panel named in its metadata is not blank;
+  - tick labels are distinct on every axis (read from the rendered text next to each axis) and
+    agree with the tick labels the figure lists in its metadata;
+  - no two texts overlap (boxes as laid out by the browser);
+  - no label inside a plot is crossed by a drawn curve, line or marker;
+  - stimulus: nothing is drawn left of t = 0 apart from the pulse's own baseline;
+  - response: the curves over the run visibly move over at least a tenth of the panel's width;
+  - poles: a map of real poles only spends little height on the imaginary axis.
 
 Prints one line per check and the final line `N passed, N failed (T s)`; exits 1 on any failure.
 """
@@ -34,6 +41,7 @@ import time
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import cdp  # noqa: E402
+import figure_checks  # noqa: E402
 
 ROOT = os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 SCENARIOS = [
@@ -41,9 +49,9 @@ SCENARIOS = [
     "scenarios/hydrophone-tank.toml",
     "scenarios/strain-bridge-stiff.toml",
     "scenarios/piezo-stage-driver.toml",
-    # 200 real poles, 185 of them minor: wide tables.
+    # 200 real poles, 185 of them minor: crowded labels on the error figure and the pole map.
     "scenarios/rc-line-ladder.toml",
-    # 50 real poles over six decades: 49 zeros in one row, a heading left at a page's foot.
+    # 50 real poles over six decades, most of the response in the first 2 % of the run.
     "tests/reference/scenarios/order50_interlaced.toml",
 ]
 # Curve colours the figures use (src/report/figures/canvas.rs): predicted, ideal.
@@ -187,18 +195,6 @@ def check_print(name, page, url, work, headings):
     )
 
 
-def svg_panels(svg):
-    """Panels named in the figure's metadata: (name, pixel rectangle x0, y0, x1, y1)."""
-    m = re.search(r'<metadata id="pulseplan-figure">(.*?)</metadata>', svg, re.S)
-    panels = []
-    for line in (m.group(1) if m else "").splitlines():
-        t = line.split()
-        if t and t[0] == "panel":
-            x0, x1, y0, y1 = float(t[2]), float(t[3]), float(t[7]), float(t[8])
-            panels.append((t[1], (min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1))))
-    return panels
-
-
 def check_figures(name, page, out, work):
     for fig in ("stimulus", "response", "error", "design", "poles"):
         svg_path = os.path.join(out, f"{fig}.svg")
@@ -207,14 +203,17 @@ def check_figures(name, page, out, work):
         w, h = int(size.group(1)), int(size.group(2))
         errs = load(page, "file://" + os.path.abspath(svg_path), w, h)
         check(not errs, f"{name}/{fig}.svg: renders without console errors {errs[:3]}")
+        drawn = page.eval("ppFigure()")
         fpng = os.path.join(work, f"{name}-{fig}.png")
         b64 = page.screenshot(fpng, (0, 0, w, h), 0.5)
-        panels = svg_panels(svg)
+        panels = figure_checks.panels(drawn["meta"])
         check(len(panels) >= 1, f"{name}/{fig}.svg: panels listed in its metadata")
-        boxes = [tuple(int(v * 0.5) for v in rect) for _, rect in panels]
+        boxes = [tuple(int(v * 0.5) for v in p.rect) for p in panels]
         shrunk = [(x0 + 1, y0 + 1, x1 - 1, y1 - 1) for x0, y0, x1, y1 in boxes]
-        for (pname, _), v in zip(panels, pixels(page, b64, shrunk)["variance"]):
-            check(v > 30.0, f"{name}/{fig}.svg: panel {pname} is not blank (variance {v:.0f})")
+        for p, v in zip(panels, pixels(page, b64, shrunk)["variance"]):
+            check(v > 30.0, f"{name}/{fig}.svg: panel {p.name} is not blank (variance {v:.0f})")
+        for ok, what in figure_checks.run(fig, drawn, panels):
+            check(ok, f"{name}/{fig}.svg: {what}")
 
 
 def run_scenario(binary, page, scen, work):

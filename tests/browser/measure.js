@@ -2,6 +2,70 @@
 // protocol in the page being checked (never written into the files under test); each
 // function returns plain JSON.
 
+// Every text, stroke and marker of the first SVG in the document, in the SVG's own pixels
+// (the figure is shown at 1:1 from the window's top-left corner).
+globalThis.ppFigure = () => {
+  const svg = document.querySelector("svg");
+  const origin = svg.getBoundingClientRect();
+  const box = (el) => {
+    const r = el.getBoundingClientRect();
+    return [r.left - origin.left, r.top - origin.top, r.right - origin.left, r.bottom - origin.top];
+  };
+  const num = (el, name, dflt) => {
+    const v = el.getAttribute(name);
+    return v === null ? dflt : parseFloat(v);
+  };
+  const texts = [...svg.querySelectorAll("text")]
+    .filter((t) => t.textContent.trim() !== "")
+    .map((t) => ({
+      text: t.textContent.trim(),
+      box: box(t),
+      fill: (t.getAttribute("fill") || "").toUpperCase(),
+      size: num(t, "font-size", 0),
+      rotated: (t.getAttribute("transform") || "").includes("rotate"),
+    }));
+  const strokes = [];
+  for (const p of svg.querySelectorAll("polyline")) {
+    const pts = (p.getAttribute("points") || "")
+      .trim()
+      .split(/\s+/)
+      .filter((s) => s.includes(","))
+      .map((s) => s.split(",").map(Number));
+    strokes.push({
+      stroke: (p.getAttribute("stroke") || "").toUpperCase(),
+      width: num(p, "stroke-width", 1),
+      opacity: num(p, "opacity", 1),
+      pts,
+    });
+  }
+  for (const l of svg.querySelectorAll("line")) {
+    strokes.push({
+      stroke: (l.getAttribute("stroke") || "").toUpperCase(),
+      width: num(l, "stroke-width", 1),
+      opacity: num(l, "opacity", 1),
+      pts: [
+        [num(l, "x1", 0), num(l, "y1", 0)],
+        [num(l, "x2", 0), num(l, "y2", 0)],
+      ],
+    });
+  }
+  const circles = [...svg.querySelectorAll("circle")].map((c) => ({
+    cx: num(c, "cx", 0),
+    cy: num(c, "cy", 0),
+    r: num(c, "r", 0),
+    fill: (c.getAttribute("fill") || "").toUpperCase(),
+  }));
+  const meta = svg.querySelector("metadata#pulseplan-figure");
+  return {
+    width: num(svg, "width", origin.width),
+    height: num(svg, "height", origin.height),
+    meta: meta ? meta.textContent : "",
+    texts,
+    strokes,
+    circles,
+  };
+};
+
 // Decode a PNG (base64) and measure it: the luminance variance inside each region
 // [x0, y0, x1, y1] (every second pixel) and how many pixels lie within `tol` (sum of channel
 // differences) of each colour [r, g, b].
