@@ -807,3 +807,34 @@ fn html_tables_scroll_in_their_own_boxes_and_cards_give_the_bench_rates() {
     // Headings keep with what follows on paper.
     assert!(html.contains("h1, h2, h3 { break-after: avoid; page-break-after: avoid; }"));
 }
+
+#[test]
+fn design_sweep_shows_a_fast_mode_hump_whole() {
+    // A minor 143 ns mode: widths near it read h badly (a hump well above 100 %), while the
+    // plan is sized on the slow modes. The sweep must start where narrower pulses do better
+    // than the planned one, not on top of the hump.
+    let text = include_str!("browser/minor-fast-mode.toml");
+    let (sc, out) = planned(text, "minor-fast");
+    let dc = figures::design_curve(&sc, &out, 80, &mut |_, _| {});
+    let first = dc.points[0];
+    assert!(
+        first.0 <= out.prep.tau_fast / 30.0,
+        "starts at {:e}",
+        first.0
+    );
+    assert!(
+        first.1 <= dc.planned_value,
+        "{first:?} vs {:e}",
+        dc.planned_value
+    );
+    let peak = dc
+        .points
+        .iter()
+        .filter(|p| p.0 < dc.planned_width)
+        .map(|p| p.1)
+        .fold(0.0, f64::max);
+    assert!(peak > 1.0, "the hump is drawn: {peak}");
+    let svg = figures::design_svg(&dc, &[]).unwrap();
+    assert!(svg.contains("fastest time scale 142.9 ns"));
+    assert_labels_clear(&svg, "minor-fast/design.svg");
+}

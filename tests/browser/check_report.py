@@ -25,6 +25,8 @@ runs `pulseplan plan FILE --report --out DIR`, then:
   - no label inside a plot is crossed by a drawn curve, line or marker;
   - stimulus: nothing is drawn left of t = 0 apart from the pulse's own baseline;
   - response: the curves over the run visibly move over at least a tenth of the panel's width;
+  - design: the curve starts where narrower pulses do better (the narrowest width's error is
+    no larger than the planned width's), so it never begins on top of a hump;
   - poles: a map of real poles only spends little height on the imaginary axis.
 
 Prints one line per check and the final line `N passed, N failed (T s)`; exits 1 on any failure.
@@ -53,6 +55,8 @@ SCENARIOS = [
     "scenarios/rc-line-ladder.toml",
     # 50 real poles over six decades, most of the response in the first 2 % of the run.
     "tests/reference/scenarios/order50_interlaced.toml",
+    # A minor fast mode: a hump in the design curve at its time scale.
+    "tests/browser/minor-fast-mode.toml",
 ]
 # Curve colours the figures use (src/report/figures/canvas.rs): predicted, ideal.
 PREDICTED = (0x11, 0x4B, 0x63)

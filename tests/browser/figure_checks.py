@@ -243,6 +243,36 @@ def response_checks(drawn, pans):
         yield best >= 0.1, f"panel {name}: h(t) visibly moves over {100 * best:.0f} % of the width (≥ 10 %)"
 
 
+def design_checks(drawn, pans):
+    """The sweep starts where narrower pulses do better: the error at the narrowest width
+    drawn is no larger than at the planned width (a curve that starts high is cut off in the
+    middle of a feature, and reads as a spike)."""
+    p = next((q for q in pans if q.name == "design"), None)
+    colour = series_colour(drawn["meta"], "design", "metric")
+    planned = [t for t in meta_rows(drawn["meta"], "point") if t[1:3] == ["design", "planned"]]
+    if p is None or colour is None or not planned:
+        yield False, "panel design, its metric series and the planned point listed"
+        return
+    v_plan = float(planned[0][4])
+    first = None
+    for s in drawing(drawn):
+        if s["stroke"] != colour or not all(inside(p.rect, q) for q in s["pts"]):
+            continue
+        q = min(s["pts"], key=lambda q: q[0])
+        if first is None or q[0] < first[0]:
+            first = q
+    if first is None:
+        yield False, "panel design: the metric curve is drawn"
+        return
+    # One pixel of slack: values are drawn on whole pixels.
+    w, v = to_data(p, first[0], first[1] - 1.0 if p.py[0] > p.py[1] else first[1] + 1.0)
+    yield (
+        v <= max(v_plan, p.y[0] * 1.7),
+        f"panel design: the error at the narrowest width ({100 * v:.3g} % at {w:.3g} s) is no "
+        f"larger than at the planned width ({100 * v_plan:.3g} %)",
+    )
+
+
 def poles_checks(drawn, pans):
     """An all-real map is a strip: its height at most a quarter of its width."""
     p = next((q for q in pans if q.name == "poles"), None)
@@ -260,6 +290,7 @@ def poles_checks(drawn, pans):
 SPECIFIC = {
     "stimulus": stimulus_checks,
     "response": response_checks,
+    "design": design_checks,
     "poles": poles_checks,
 }
 

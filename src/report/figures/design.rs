@@ -3,8 +3,8 @@
 
 use super::axis::Axis;
 use super::canvas::{
-    Area, BAND, BUDGET, Chart, EXTRA, Key, Meta, PLANNED, PREDICTED, PanelSpec, RULE, Spot, curve,
-    label, legend, marker, panel, pe, percent_tick, render, segment, time_tick, titled,
+    Area, BAND, BUDGET, Chart, EXTRA, Key, MARK, Meta, PLANNED, PREDICTED, PanelSpec, RULE, Spot,
+    curve, label, legend, marker, panel, pe, percent_tick, render, segment, time_tick, titled,
 };
 use crate::estimate::Metric;
 use crate::pipeline::PlanOutcome;
@@ -43,11 +43,21 @@ pub struct DesignCurve {
     pub cap_width: f64,
     /// The budget, when one was given.
     pub budget: Option<f64>,
+    /// Fastest time scale 1/max|p| over every mode, significant or not, s.
+    pub fastest: f64,
 }
+
+/// Decades the sweep may reach below its first choice of narrowest width.
+const EXTRA_DECADES: i32 = 6;
 
 /// Sweep the metric over `n` widths (log-spaced, plus the rule-of-thumb and planned widths),
 /// exactly as the planner's search evaluates it: `tied_pulse(area, w, edge_ratio)`, run at
 /// least twice the pulse's end. `progress(done, total)` is called after each width.
+///
+/// The sweep starts below the rule-of-thumb, planned and fastest widths, and further down
+/// (a decade at a time) until the narrowest pulse does at least as well as the planned one: a
+/// mode faster than the pulse's time scale makes a hump near its own time scale, which a
+/// sweep starting on it would cut in two (it then reads as a spike at the left).
 pub fn design_curve(
     sc: &Scenario,
     out: &PlanOutcome,
@@ -59,7 +69,20 @@ pub fn design_curve(
     let rule_width = prep.tau_plan / s.width_ratio;
     let planned_width = out.pulse.width_50();
     let cap_width = prep.tau_plan / s.min_width_ratio;
-    let lo = rule_width.min(planned_width) / 30.0;
+    let f = |w: f64| {
+        let p = tied_pulse(sc.area, w, s.edge_ratio);
+        let run = prep.run.max(p.end() * 2.0);
+        prep.estimator.metric(&p, s.metric, run)
+    };
+    let planned_value = f(planned_width);
+    let floor = prep.estimator.rounding_floor();
+    let mut lo = rule_width.min(planned_width).min(prep.tau_fast) / 30.0;
+    for _ in 0..EXTRA_DECADES {
+        if f(lo) <= planned_value.max(floor) {
+            break;
+        }
+        lo /= 10.0;
+    }
     let hi = planned_width.max(cap_width) * 4.0;
     let n = n.max(2);
     let mut widths: Vec<f64> = (0..n)
@@ -69,21 +92,17 @@ pub fn design_curve(
     widths.push(planned_width);
     widths.sort_by(f64::total_cmp);
     widths.dedup();
-    let f = |w: f64| {
-        let p = tied_pulse(sc.area, w, s.edge_ratio);
-        let run = prep.run.max(p.end() * 2.0);
-        prep.estimator.metric(&p, s.metric, run)
-    };
     let total = widths.len();
     let mut points = Vec::with_capacity(total);
     for (i, &w) in widths.iter().enumerate() {
-        points.push((w, f(w)));
+        let v = if w == planned_width {
+            planned_value
+        } else {
+            f(w)
+        };
+        points.push((w, v));
         progress(i + 1, total);
     }
-    let planned_value = points
-        .iter()
-        .find(|p| p.0 == planned_width)
-        .map_or_else(|| f(planned_width), |p| p.1);
     DesignCurve {
         metric: s.metric,
         points,
@@ -92,6 +111,7 @@ pub fn design_curve(
         planned_value,
         cap_width,
         budget: s.target_error,
+        fastest: prep.tau_fast,
     }
 }
 
@@ -167,6 +187,14 @@ pub fn design_svg(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> io::Result<S
             keys.push(Key::dashed(BUDGET, 2, "8 5", "budget"));
         }
         keys.push(Key::dashed(RULE, 2, "10 4 2 4", "rule-of-thumb width"));
+        if shows_fastest(dc, &x) {
+            keys.push(Key::dashed(
+                MARK,
+                1,
+                "3 3",
+                "fastest time scale of any mode",
+            ));
+        }
         keys.push(Key::marker(PLANNED, "planned width"));
         keys.push(Key::line(BAND, 12, "wider than the cap"));
         let body = legend(&body, &keys, meta)?;
@@ -186,6 +214,12 @@ pub fn design_svg(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> io::Result<S
         design_lines(&mut ch, meta, dc, extra_curves, (&x, &y, floor))?;
         design_labels(&mut ch, meta, dc, (&x, &y, floor))
     })
+}
+
+/// True when a mode faster than the planned scale has its time scale inside the sweep (it
+/// explains a hump there), so the figure marks it.
+fn shows_fastest(dc: &DesignCurve, x: &Axis) -> bool {
+    dc.fastest < dc.rule_width.max(dc.planned_width) && x.contains(dc.fastest)
 }
 
 /// The cap band, the curves, the budget and rule-of-thumb lines and the planned marker.
@@ -218,6 +252,10 @@ fn design_lines(
     }
     let rule = (dc.rule_width, y.lo);
     segment(ch, meta, rule, (dc.rule_width, y.hi), RULE, 2)?;
+    if shows_fastest(dc, x) {
+        meta.dash(MARK, "3 3");
+        segment(ch, meta, (dc.fastest, y.lo), (dc.fastest, y.hi), MARK, 1)?;
+    }
     let pv = dc.planned_value.max(floor);
     segment(
         ch,
@@ -288,7 +326,7 @@ fn design_labels(
     mark_labels(ch, meta, dc, (x, y))
 }
 
-/// The cap's label.
+/// Labels for the fastest time scale (when marked) and the cap.
 fn mark_labels(
     ch: &mut Chart<'_, '_>,
     meta: &mut Meta,
@@ -296,6 +334,20 @@ fn mark_labels(
     (x, y): (&Axis, &Axis),
 ) -> io::Result<()> {
     let pos = Pos::new;
+    if shows_fastest(dc, x) {
+        let spots: Vec<Spot> = [0.06, 0.25, 0.5, 0.75, 0.94]
+            .iter()
+            .flat_map(|&f| {
+                let at = (dc.fastest, along(y, f));
+                [
+                    Spot::new(at, (6, 0), pos(HPos::Left, VPos::Center)),
+                    Spot::new(at, (-6, 0), pos(HPos::Right, VPos::Center)),
+                ]
+            })
+            .collect();
+        let text = format!("fastest time scale {}", eng(dc.fastest, Dim::Time));
+        label(ch, meta, &spots, &text, MARK)?;
+    }
     if dc.cap_width < x.hi {
         let at = dc.cap_width.max(x.lo);
         let spots = [
