@@ -538,3 +538,303 @@ fn html_report_is_self_contained_and_escaped() {
         out.pulse.width_50()
     );
 }
+
+/// `tick PANEL AXIS VALUE LABEL` lines: the labels of one axis, in the order listed.
+fn tick_labels(svg: &str, panel: &str, axis: &str) -> Vec<String> {
+    let head = format!("tick {panel} {axis} ");
+    meta_lines(svg)
+        .iter()
+        .filter_map(|l| l.strip_prefix(&head))
+        .map(|rest| rest.split_once(' ').unwrap().1.to_string())
+        .collect()
+}
+
+/// Texts of the SVG, trimmed.
+fn svg_texts(svg: &str) -> Vec<String> {
+    svg.split("<text")
+        .skip(1)
+        .map(|t| {
+            let body = &t[t.find('>').unwrap() + 1..t.find("</text>").unwrap()];
+            body.trim().to_string()
+        })
+        .collect()
+}
+
+#[test]
+fn edge_zoom_tick_labels_are_distinct() {
+    use pulseplan::pulse::Trapezoid;
+    use pulseplan::units::Signal;
+    // A 110 ns pulse with 1.1 ns edges: at three digits its falling edge's ticks read
+    // "110 ns" three times; so do 1.31 µs with 13 ns edges and 1 s with 1 ns edges (the edge
+    // zoom spans at least a thousandth of the width, so five digits always tell them apart).
+    for (width, edge) in [(110e-9, 1.1e-9), (1.31e-6, 13e-9), (1.0, 1e-9)] {
+        let pulse = Trapezoid::with_area(1e-6, width, edge).unwrap();
+        let svg = figures::stimulus_svg(&pulse, Signal::Voltage).unwrap();
+        let texts = svg_texts(&svg);
+        for name in ["pulse", "rise", "fall"] {
+            for axis in ["x", "y"] {
+                let labels = tick_labels(&svg, name, axis);
+                assert!(labels.len() >= 2, "{name}/{axis}: {labels:?}");
+                for (i, l) in labels.iter().enumerate() {
+                    assert!(
+                        !labels[i + 1..].contains(l),
+                        "{width:e}: {name}/{axis} repeats {l:?} in {labels:?}"
+                    );
+                    assert!(texts.contains(l), "{l:?} is drawn");
+                }
+            }
+        }
+    }
+}
+
+/// A placed label's box: `label PANEL X0 Y0 X1 Y1 TEXT`.
+fn label_boxes(svg: &str) -> Vec<([f64; 4], String)> {
+    meta_lines(svg)
+        .iter()
+        .filter_map(|l| l.strip_prefix("label "))
+        .map(|rest| {
+            let t: Vec<&str> = rest.splitn(6, ' ').collect();
+            let f = |i: usize| t[i].parse::<f64>().unwrap();
+            ([f(1), f(2), f(3), f(4)], t[5].to_string())
+        })
+        .collect()
+}
+
+/// Drawn strokes (polylines at full opacity, background colours aside) as pixel paths.
+fn strokes(svg: &str) -> Vec<Vec<(f64, f64)>> {
+    let background = ["#E4E6E9", "#DCE4EE", "#FFFFFF"];
+    svg.lines()
+        .filter(|l| l.trim_start().starts_with("<polyline"))
+        .filter(|l| attr(l, "opacity").as_deref() == Some("1"))
+        .filter(|l| !background.contains(&attr(l, "stroke").unwrap_or_default().as_str()))
+        .map(|l| {
+            attr(l, "points")
+                .unwrap()
+                .split_whitespace()
+                .map(|xy| {
+                    let (x, y) = xy.split_once(',').unwrap();
+                    (x.parse().unwrap(), y.parse().unwrap())
+                })
+                .collect()
+        })
+        .collect()
+}
+
+/// Does the segment a–b enter the box? (Sampled every half pixel: plenty for a test.)
+fn crosses(a: (f64, f64), b: (f64, f64), r: &[f64; 4]) -> bool {
+    let n = (((b.0 - a.0).abs() + (b.1 - a.1).abs()) * 2.0)
+        .ceil()
+        .max(1.0) as usize;
+    (0..=n).any(|k| {
+        let s = k as f64 / n as f64;
+        let (x, y) = (a.0 + s * (b.0 - a.0), a.1 + s * (b.1 - a.1));
+        x > r[0] && x < r[2] && y > r[1] && y < r[3]
+    })
+}
+
+/// Every placed label is clear of the other labels and of every drawn stroke.
+fn assert_labels_clear(svg: &str, what: &str) {
+    let labels = label_boxes(svg);
+    let lines = strokes(svg);
+    for (i, (a, ta)) in labels.iter().enumerate() {
+        for (b, tb) in &labels[i + 1..] {
+            let apart = a[2] <= b[0] || b[2] <= a[0] || a[3] <= b[1] || b[3] <= a[1];
+            assert!(apart, "{what}: labels {ta:?} and {tb:?} overlap");
+        }
+        for l in &lines {
+            assert!(
+                !l.windows(2).any(|w| crosses(w[0], w[1], a)),
+                "{what}: label {ta:?} is crossed by a stroke"
+            );
+        }
+    }
+}
+
+/// Eight sections of 1 kΩ and 1 nF: all-real poles, most of them minor at the far end.
+fn rc_ladder(sections: usize) -> String {
+    let mut parts = String::new();
+    for k in 1..=sections {
+        let prev = if k == 1 {
+            "in".to_string()
+        } else {
+            format!("n{}", k - 1)
+        };
+        parts.push_str(&format!(
+            "  {{ name = \"R{k}\", kind = \"resistor\", nodes = [\"{prev}\", \"n{k}\"], value = \"1k\" }},\n  \
+             {{ name = \"C{k}\", kind = \"capacitor\", nodes = [\"n{k}\", \"gnd\"], value = \"1n\" }},\n"
+        ));
+    }
+    format!(
+        "[network]\ninput = \"in\"\noutput = \"n{sections}\"\nparts = [\n{parts}]\n[drive]\nkind = \"voltage\"\narea = \"1 mV·s\"\n[plan]\ntarget_error = \"0.5 %\"\nmetric = \"window\"\n"
+    )
+}
+
+#[test]
+fn labels_collide_with_nothing() {
+    let ladder = rc_ladder(8);
+    for (text, name) in [
+        (LAG_LEAD, "laglead"),
+        (TANK, "tank"),
+        (ladder.as_str(), "ladder"),
+    ] {
+        let (sc, out) = planned(text, name);
+        let figs = figures::plan_figures(&sc, &out, &Default::default(), &mut |_, _| {}).unwrap();
+        for f in &figs {
+            assert_labels_clear(&f.svg, &format!("{name}/{}", f.file));
+        }
+        // The planned point and the budget are labelled in the design figure.
+        let design = &figs[3].svg;
+        let texts: Vec<String> = label_boxes(design).into_iter().map(|l| l.1).collect();
+        assert!(
+            texts.iter().any(|t| t.starts_with("planned ")),
+            "{name}: {texts:?}"
+        );
+        assert!(
+            texts.iter().any(|t| t.starts_with("budget ")),
+            "{name}: {texts:?}"
+        );
+    }
+}
+
+#[test]
+fn stimulus_marks_stay_within_the_pulse() {
+    let (sc, out) = planned(TANK, "tank-marks");
+    let svg = figures::stimulus_svg(&out.pulse, sc.drive).unwrap();
+    let p = panel(&svg, "pulse");
+    let outline = series_colour(&svg, "pulse", "u");
+    let x_zero = p.to_px(0.0, p.y.0).0;
+    for l in svg
+        .lines()
+        .filter(|l| l.trim_start().starts_with("<polyline"))
+    {
+        // The outline itself, and the axes (drawn faded), may start left of t = 0.
+        if attr(l, "stroke").as_deref() == Some(outline.as_str())
+            || attr(l, "opacity").as_deref() != Some("1")
+        {
+            continue;
+        }
+        let pts: Vec<(f64, f64)> = attr(l, "points")
+            .unwrap()
+            .split_whitespace()
+            .map(|xy| {
+                let (x, y) = xy.split_once(',').unwrap();
+                (x.parse().unwrap(), y.parse().unwrap())
+            })
+            .collect();
+        if pts.iter().all(|&q| p.inside(q)) {
+            assert!(
+                pts.iter().all(|q| q.0 >= x_zero - 1.0),
+                "a mark left of t = 0: {l}"
+            );
+        }
+    }
+}
+
+#[test]
+fn all_real_pole_map_is_a_strip() {
+    let (sc, _) = planned(&rc_ladder(8), "ladder-poles");
+    assert!(sc.network.modes.iter().all(|m| m.pole.im == 0.0));
+    let svg = figures::poles_svg(&sc.network, None).unwrap();
+    let p = panel(&svg, "poles");
+    let (w, h) = ((p.px.1 - p.px.0).abs(), (p.py.1 - p.py.0).abs());
+    assert!(h <= w / 4.0, "strip {w} × {h} px");
+    assert_eq!(tick_labels(&svg, "poles", "y"), ["0"]);
+    assert!(svg.contains("every pole and zero is real"));
+    for m in &sc.network.modes {
+        assert!(p.inside(p.to_px(m.pole.re, 0.0)));
+    }
+    // A complex pair keeps the whole plane.
+    let (sc, _) = planned(TANK, "tank-plane");
+    let svg = figures::poles_svg(&sc.network, None).unwrap();
+    let p = panel(&svg, "poles");
+    assert!((p.py.1 - p.py.0).abs() > (p.px.1 - p.px.0).abs() / 2.0);
+}
+
+#[test]
+fn response_over_the_run_shows_the_dynamics() {
+    // 50 interlaced real poles over six decades: h does nearly all its moving in the first
+    // 2 % of the run, so the run is drawn on a logarithmic time axis.
+    let text = include_str!("reference/scenarios/order50_interlaced.toml");
+    let (sc, out) = planned(text, "order50");
+    let svg = figures::response_svg(&sc, &out.prep, &out.pulse, out.prep.run).unwrap();
+    let p = panel(&svg, "main");
+    assert_eq!(p.xs, "log10");
+    let ideal = series_colour(&svg, "main", "ideal");
+    for name in ["main", "zoom"] {
+        let p = panel(&svg, name);
+        let lines = polylines(&svg, &ideal, &p);
+        let line = lines.iter().max_by_key(|l| l.len()).unwrap();
+        let last = line.last().unwrap().1;
+        let h = (p.py.1 - p.py.0).abs();
+        let moving: Vec<f64> = line
+            .iter()
+            .filter(|q| (q.1 - last).abs() > 0.02 * h)
+            .map(|q| q.0)
+            .collect();
+        let spread = moving.iter().cloned().fold(f64::NEG_INFINITY, f64::max)
+            - moving.iter().cloned().fold(f64::INFINITY, f64::min);
+        let width = (p.px.1 - p.px.0).abs();
+        assert!(
+            spread >= 0.1 * width,
+            "{name}: h moves over {spread} of {width} px"
+        );
+    }
+    // A plain lag-lead network keeps a linear run.
+    let (sc, out) = planned(LAG_LEAD, "laglead-run");
+    let svg = figures::response_svg(&sc, &out.prep, &out.pulse, out.prep.run).unwrap();
+    assert_eq!(panel(&svg, "main").xs, "linear");
+}
+
+#[test]
+fn html_tables_scroll_in_their_own_boxes_and_cards_give_the_bench_rates() {
+    let (sc, out) = planned(LAG_LEAD, "laglead-cards");
+    let html = report::plan_html(&sc, &out, &[]);
+    let tables = html.matches("<table>").count();
+    assert!(tables >= 5);
+    assert_eq!(
+        html.matches("<div class=\"table-box\"><table>").count(),
+        tables
+    );
+    assert!(html.contains(".table-box { max-width: 100%; overflow-x: auto;"));
+    let period = pulseplan::units::eng(
+        out.bench.period.unwrap().period,
+        pulseplan::units::Dim::Time,
+    );
+    assert!(html.contains(&format!(
+        "<div class=\"k\">period</div><div class=\"v\">{period}</div>"
+    )));
+    assert!(html.contains("<div class=\"k\">sample rate</div>"));
+    // Headings keep with what follows on paper.
+    assert!(html.contains("h1, h2, h3 { break-after: avoid; page-break-after: avoid; }"));
+}
+
+#[test]
+fn design_sweep_shows_a_fast_mode_hump_whole() {
+    // A minor 143 ns mode: widths near it read h badly (a hump well above 100 %), while the
+    // plan is sized on the slow modes. The sweep must start where narrower pulses do better
+    // than the planned one, not on top of the hump.
+    let text = include_str!("browser/minor-fast-mode.toml");
+    let (sc, out) = planned(text, "minor-fast");
+    let dc = figures::design_curve(&sc, &out, 80, &mut |_, _| {});
+    let first = dc.points[0];
+    assert!(
+        first.0 <= out.prep.tau_fast / 30.0,
+        "starts at {:e}",
+        first.0
+    );
+    assert!(
+        first.1 <= dc.planned_value,
+        "{first:?} vs {:e}",
+        dc.planned_value
+    );
+    let peak = dc
+        .points
+        .iter()
+        .filter(|p| p.0 < dc.planned_width)
+        .map(|p| p.1)
+        .fold(0.0, f64::max);
+    assert!(peak > 1.0, "the hump is drawn: {peak}");
+    let svg = figures::design_svg(&dc, &[]).unwrap();
+    assert!(svg.contains("fastest time scale 142.9 ns"));
+    assert_labels_clear(&svg, "minor-fast/design.svg");
+}

@@ -12,9 +12,15 @@ cargo build --release
 # Recovery from synthetic captures (tests/recovery/gen_capture.py): Cramér–Rao spread and
 # coverage, the three readings, a part off its value, file layouts, bad files.
 "$PY" tests/recovery/check_recovery.py --quiet
-# Browser check of the HTML report: headless Chromium renders report.html and each figure.
-# CI runs as root and installs Chromium when it is missing; elsewhere the check needs it present.
-if [ ! -x /usr/bin/chromium ] && [ "$(id -u)" = "0" ]; then
-    (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium) >/dev/null
+# Browser check of the HTML report: headless Chromium renders report.html and each figure, and
+# prints the report (poppler-utils' pdftotext reads the printed pages back). CI runs as root and
+# installs what is missing; elsewhere the check needs Chromium present (and skips the printed
+# pages, saying so, without pdftotext).
+missing=""
+[ -x /usr/bin/chromium ] || missing="chromium"
+command -v pdftotext >/dev/null || missing="$missing poppler-utils"
+if [ -n "$missing" ] && [ "$(id -u)" = "0" ]; then
+    # shellcheck disable=SC2086
+    (apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq $missing) >/dev/null
 fi
 "$PY" tests/browser/check_report.py --quiet

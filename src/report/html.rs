@@ -24,7 +24,7 @@ header.top .kicker { font-size: 12px; letter-spacing: .08em; text-transform: upp
 h1 { font-size: 26px; margin: 4px 0 2px; }
 h2 { font-size: 19px; margin: 30px 0 10px; padding-bottom: 4px; border-bottom: 1px solid var(--line); color: var(--accent); }
 h3 { font-size: 16px; margin: 18px 0 6px; }
-.file { color: var(--soft); font-family: ui-monospace, "DejaVu Sans Mono", monospace; font-size: 13px; }
+.file { color: var(--soft); font-family: ui-monospace, "DejaVu Sans Mono", monospace; font-size: 13px; overflow-wrap: anywhere; }
 .cards { display: grid; grid-template-columns: repeat(auto-fit, minmax(210px, 1fr)); gap: 10px; margin: 14px 0; }
 .card { background: #fff; border: 1px solid var(--line); border-left: 4px solid var(--accent); padding: 8px 12px; }
 .card .k { font-size: 12px; color: var(--soft); text-transform: uppercase; letter-spacing: .05em; }
@@ -36,7 +36,9 @@ thead th { background: var(--tint); font-weight: 600; }
 tbody th { font-weight: 500; color: var(--soft); white-space: nowrap; }
 td.num { text-align: right; white-space: nowrap; }
 tr.group th { background: #f6f7f8; color: var(--ink); font-weight: 600; }
-.formula { font-family: "DejaVu Serif", Georgia, serif; font-size: 17px; background: #fff; border: 1px solid var(--line); padding: 8px 12px; display: inline-block; }
+.formula { font-family: "DejaVu Serif", Georgia, serif; font-size: 17px; background: #fff; border: 1px solid var(--line); padding: 8px 12px; display: inline-block; max-width: 100%; overflow-x: auto; }
+.table-box { max-width: 100%; overflow-x: auto; margin: 6px 0 10px; }
+.table-box > table { margin: 0; }
 .note { color: var(--soft); font-size: 13px; }
 figure { margin: 18px 0; background: #fff; border: 1px solid var(--line); padding: 8px; }
 figure svg { width: 100%; height: auto; display: block; }
@@ -51,8 +53,10 @@ footer { margin-top: 36px; font-size: 12px; color: var(--soft); border-top: 1px 
 @media print {
   body { background: #fff; font-size: 11pt; }
   main { max-width: none; padding: 0; }
-  h2 { break-after: avoid; page-break-after: avoid; }
+  h1, h2, h3 { break-after: avoid; page-break-after: avoid; }
   table, figure, .cards, ul.warnings li { break-inside: avoid; page-break-inside: avoid; }
+  .table-box, .formula { overflow: visible; }
+  td.num, tbody th { white-space: normal; }
   section.figures { break-before: page; page-break-before: always; }
   figure { border: none; padding: 0; }
   .card, table, figure { background: #fff; }
@@ -469,6 +473,13 @@ fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
     let _ = writeln!(s, "</ul>");
 }
 
+/// Put every table in its own box that scrolls sideways when the table is wider than the
+/// page, so a narrow window never scrolls the whole page.
+fn boxed_tables(html: &str) -> String {
+    html.replace("<table>", "<div class=\"table-box\"><table>")
+        .replace("</table>", "</table></div>")
+}
+
 /// Strip what an inline SVG does not need in HTML (the XML namespace, fixed pixel size).
 pub fn inline_svg(svg: &str) -> String {
     let mut s = svg.replacen(" xmlns=\"http://www.w3.org/2000/svg\"", "", 1);
@@ -499,6 +510,25 @@ pub fn inline_svg(svg: &str) -> String {
 /// The HTML report for `plan`, with the given figures inlined in order.
 pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String {
     let mut s = String::with_capacity(64 * 1024);
+    s = head_html(s, sc);
+    s = summary_html(s, sc, out);
+    s = network_html(s, sc, out);
+    s = network_facts_html(s, sc, out);
+    s = time_scales_html(s, sc, out);
+    s = plan_section_html(s, sc, out);
+    let u = Units::of(sc.drive, sc.output);
+    bench_html(&mut s, sc, out);
+    tolerance_html(&mut s, out, &u);
+    s = errors_section_html(s, out, &u);
+    s = warnings_section_html(s, sc, out);
+    s = figures_html(s, sc, figures);
+    boxed_tables(&s)
+}
+
+// The sections below each take the report so far and return it extended.
+
+/// The document head and the report's header.
+fn head_html(mut s: String, sc: &Scenario) -> String {
     let title = sc.title.clone().unwrap_or_else(|| sc.name.clone());
     let _ = writeln!(
         s,
@@ -515,16 +545,43 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         escape(&title),
         escape(&sc.file)
     );
+    s
+}
 
+/// The summary: the cards, then the scenario, drive and budget.
+fn summary_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
     // Summary.
-    let p = &out.pulse;
-    let e = &out.estimate;
-    let dim = sc.drive.dim();
-    let metric_value = e.metric(sc.plan.metric);
     let _ = writeln!(
         s,
         "<section class=\"summary\"><h2>Summary</h2><div class=\"cards\">"
     );
+    s = cards_html(s, sc, out);
+    let _ = writeln!(s, "</div>");
+    let _ = writeln!(
+        s,
+        "<table><tbody>\
+         <tr><th>scenario</th><td>{}</td></tr>\
+         <tr><th>drive</th><td>{}, area {}</td></tr>\
+         <tr><th>budget</th><td>{}</td></tr></tbody></table>",
+        escape(&sc.name),
+        if sc.drive == Signal::Voltage {
+            "voltage"
+        } else {
+            "current"
+        },
+        escape(&words::area_rule_text(&sc.area, sc.drive)),
+        escape(&budget_text(sc, out))
+    );
+    let _ = writeln!(s, "</section>");
+    s
+}
+
+/// The summary cards: the figures a bench user needs first.
+fn cards_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
+    let p = &out.pulse;
+    let e = &out.estimate;
+    let dim = sc.drive.dim();
+    let metric_value = e.metric(sc.plan.metric);
     let card = |s: &mut String, k: &str, v: &str, alert: bool| {
         let _ = writeln!(
             s,
@@ -565,30 +622,32 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
             .is_some_and(|b| metric_value > b * (1.0 + 1e-9)),
     );
     card(&mut s, "run", &eng(out.prep.run, Dim::Time), false);
+    let b = &out.bench;
+    card(
+        &mut s,
+        "period",
+        &b.period
+            .as_ref()
+            .map_or("single shots".into(), |p| eng(p.period, Dim::Time)),
+        b.period.as_ref().is_some_and(|p| !p.met),
+    );
+    card(
+        &mut s,
+        "sample rate",
+        &format!("{}Sa/s", crate::units::eng_number(b.capture.sample_rate, 4)),
+        !b.capture.fits_memory,
+    );
     card(
         &mut s,
         "warnings",
         &out.warnings.len().to_string(),
         !out.warnings.is_empty(),
     );
-    let _ = writeln!(s, "</div>");
-    let _ = writeln!(
-        s,
-        "<table><tbody>\
-         <tr><th>scenario</th><td>{}</td></tr>\
-         <tr><th>drive</th><td>{}, area {}</td></tr>\
-         <tr><th>budget</th><td>{}</td></tr></tbody></table>",
-        escape(&sc.name),
-        if sc.drive == Signal::Voltage {
-            "voltage"
-        } else {
-            "current"
-        },
-        escape(&words::area_rule_text(&sc.area, sc.drive)),
-        escape(&budget_text(sc, out))
-    );
-    let _ = writeln!(s, "</section>");
+    s
+}
 
+/// The network function and the modes table.
+fn network_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
     // Network.
     let net = &sc.network;
     let prep = &out.prep;
@@ -605,13 +664,21 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
     );
     let u = Units::of(sc.drive, sc.output);
     modes_table(&mut s, net, &prep.significant, &u);
+    s
+}
+
+/// Zeros, direct term, improper part, h(0⁺) and peak.
+fn network_facts_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
+    let net = &sc.network;
+    let prep = &out.prep;
+    let u = Units::of(sc.drive, sc.output);
     let _ = writeln!(s, "<table><tbody>");
     if !net.zeros.is_empty() {
         let zs: Vec<String> = net.zeros.iter().map(|&z| complex_text(z)).collect();
-        row(&mut s, "zeros (rad/s)", &[zs.join(", ")]);
+        text_row(&mut s, "zeros (rad/s)", &[zs.join(", ")]);
     }
     if net.residues_known {
-        row(
+        text_row(
             &mut s,
             "direct term D",
             &[if net.direct != 0.0 {
@@ -624,7 +691,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
             }],
         );
         if net.is_improper() {
-            row(
+            text_row(
                 &mut s,
                 "improper part",
                 &[format!(
@@ -637,7 +704,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
                 )],
             );
         }
-        row(
+        text_row(
             &mut s,
             "h(0⁺)",
             &[format!(
@@ -646,7 +713,7 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
                 u.h_value(net.h0_ivt)
             )],
         );
-        row(
+        text_row(
             &mut s,
             "peak |h|",
             &[format!(
@@ -656,13 +723,20 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
             )],
         );
     }
+    s
+}
+
+/// Time scales, settling and stability; closes the network section.
+fn time_scales_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
+    let net = &sc.network;
+    let prep = &out.prep;
     row(
         &mut s,
         "fastest time scale 1/max|p|",
         &[eng(prep.tau_fast, Dim::Time)],
     );
     if prep.tau_plan != prep.tau_fast {
-        row(
+        text_row(
             &mut s,
             "fastest significant time scale",
             &[format!(
@@ -691,7 +765,12 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         &[if net.stable() { "yes" } else { "NO" }.into()],
     );
     let _ = writeln!(s, "</tbody></table></section>");
+    s
+}
 
+/// The pulse plan: budget, rule of thumb, the pulses in both views, the run.
+fn plan_section_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
+    let prep = &out.prep;
     // Plan.
     let _ = writeln!(s, "<section><h2>Pulse plan</h2>");
     let _ = writeln!(
@@ -718,16 +797,18 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         "<p class=\"note\">Run length basis: {}.</p></section>",
         escape(&words::run_basis_text(&prep.run_basis))
     );
+    s
+}
 
-    bench_html(&mut s, sc, out);
-    tolerance_html(&mut s, out, &u);
-
+/// The predicted error of the recommended pulse.
+fn errors_section_html(mut s: String, out: &PlanOutcome, u: &Units) -> String {
+    let e = &out.estimate;
     // Errors.
     let _ = writeln!(
         s,
         "<section><h2>Predicted error of the recommended pulse</h2>"
     );
-    errors_table(&mut s, e, &u);
+    errors_table(&mut s, e, u);
     if out.budget.as_ref().is_some_and(|b| b.widening.is_some()) {
         let r = &out.rule_estimate;
         let _ = writeln!(
@@ -739,7 +820,13 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
         );
     }
     let _ = writeln!(s, "</section>");
+    s
+}
 
+/// Warnings and cautions.
+fn warnings_section_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
+    let prep = &out.prep;
+    let e = &out.estimate;
     // Warnings and cautions.
     let _ = writeln!(s, "<section><h2>Warnings</h2>");
     let basis = words::run_basis_text(&prep.run_basis);
@@ -765,7 +852,11 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
             NormalisedBy::EachMode => "each mode's own h(0⁺)",
         }
     );
+    s
+}
 
+/// The figures, inlined, and the footer.
+fn figures_html(mut s: String, sc: &Scenario, figures: &[Figure]) -> String {
     // Figures.
     if !figures.is_empty() {
         let _ = writeln!(s, "<section class=\"figures\"><h2>Figures</h2>");

@@ -274,6 +274,107 @@ fn symlog_ticks(axis: &Axis, c: f64, max: usize) -> Vec<f64> {
     out
 }
 
+/// A tick formatter: the value and the significant digits to write it with.
+pub type TickFormat<'a> = &'a dyn Fn(f64, usize) -> String;
+
+/// Fewest significant digits a tick label is written with.
+const MIN_DIGITS: usize = 3;
+/// Most significant digits before the labels switch to offsets from a reference tick.
+const MAX_DIGITS: usize = 5;
+
+/// How an axis's tick values are written so that no two labels read the same: with as few
+/// significant digits as keep them distinct (at least three), or, when that would take more
+/// than five, as offsets from the first tick, which the axis description then names.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TickText {
+    /// Significant digits of each label (of the offset, in offset mode).
+    pub digits: usize,
+    /// The reference the labels count from, when they are offsets.
+    pub offset: Option<f64>,
+    /// The tick values and their labels, in increasing value.
+    pub labels: Vec<(f64, String)>,
+}
+
+impl TickText {
+    /// Choose the writing for these ticks.
+    pub fn choose(ticks: &[f64], fmt: TickFormat<'_>) -> TickText {
+        for digits in MIN_DIGITS..=MAX_DIGITS {
+            let labels: Vec<(f64, String)> = ticks.iter().map(|&v| (v, fmt(v, digits))).collect();
+            if distinct(&labels) {
+                return TickText {
+                    digits,
+                    offset: None,
+                    labels,
+                };
+            }
+        }
+        let origin = ticks.first().copied().unwrap_or(0.0);
+        let mut digits = MIN_DIGITS;
+        loop {
+            let labels: Vec<(f64, String)> = ticks
+                .iter()
+                .map(|&v| (v, offset_text(v - origin, digits, fmt)))
+                .collect();
+            if distinct(&labels) || digits >= 2 * MAX_DIGITS {
+                return TickText {
+                    digits,
+                    offset: Some(origin),
+                    labels,
+                };
+            }
+            digits += 1;
+        }
+    }
+
+    /// The label of a tick value (the nearest listed tick's; a value between ticks is
+    /// written the same way).
+    pub fn label(&self, v: f64, fmt: TickFormat<'_>) -> String {
+        let near = self
+            .labels
+            .iter()
+            .min_by(|a, b| (a.0 - v).abs().total_cmp(&(b.0 - v).abs()));
+        match near {
+            Some((t, l)) if (t - v).abs() <= 1e-9 * (t.abs() + (self.step())) => l.clone(),
+            _ => match self.offset {
+                Some(o) => offset_text(v - o, self.digits, fmt),
+                None => fmt(v, self.digits),
+            },
+        }
+    }
+
+    /// The axis description, naming the reference when the labels are offsets.
+    pub fn describe(&self, desc: &str, fmt: TickFormat<'_>) -> String {
+        match self.offset {
+            Some(o) => format!("{desc}, ticks counted from {}", fmt(o, 12)),
+            None => desc.to_string(),
+        }
+    }
+
+    fn step(&self) -> f64 {
+        match self.labels.as_slice() {
+            [a, b, ..] => (b.0 - a.0).abs(),
+            _ => 0.0,
+        }
+    }
+}
+
+/// No two labels read the same (empty labels, for ticks drawn without text, aside).
+fn distinct(labels: &[(f64, String)]) -> bool {
+    labels
+        .iter()
+        .enumerate()
+        .all(|(i, a)| a.1.is_empty() || labels[i + 1..].iter().all(|b| b.1 != a.1))
+}
+
+/// An offset from the reference tick: "0" for the reference itself, a sign otherwise.
+fn offset_text(d: f64, digits: usize, fmt: TickFormat<'_>) -> String {
+    if d == 0.0 {
+        return fmt(0.0, digits);
+    }
+    let t = fmt(d, digits);
+    if d > 0.0 { format!("+{t}") } else { t }
+}
+
 impl Ranged for Axis {
     type FormatOption = NoDefaultFormatting;
     type ValueType = f64;
@@ -334,6 +435,30 @@ mod tests {
         let s = Axis::symlog(-1e6, 10.0, 0.1);
         let t = s.ticks(8);
         assert!(t.contains(&0.0) && t.contains(&-1e6));
+    }
+
+    #[test]
+    fn tick_labels_stay_distinct() {
+        let fmt = |v: f64, d: usize| crate::units::eng_sig(v, crate::units::Dim::Time, d);
+        // 1.3095…1.3125 µs in 0.5 ns steps reads "1.31 µs" six times at three digits.
+        let ticks: Vec<f64> = (0..7).map(|k| 1.3095e-6 + 0.5e-9 * k as f64).collect();
+        let t = TickText::choose(&ticks, &fmt);
+        assert_eq!(t.offset, None);
+        assert_eq!(t.labels[0].1, "1.3095 µs");
+        assert_eq!(t.labels[1].1, "1.31 µs");
+        // Picosecond steps at one second need offsets.
+        let ticks: Vec<f64> = (0..5).map(|k| 1.0 + 20e-12 * k as f64).collect();
+        let t = TickText::choose(&ticks, &fmt);
+        assert_eq!(t.offset, Some(1.0));
+        let labels: Vec<&str> = t.labels.iter().map(|l| l.1.as_str()).collect();
+        assert_eq!(labels, ["0 s", "+20 ps", "+40 ps", "+60 ps", "+80 ps"]);
+        assert_eq!(
+            t.describe("time t (s)", &fmt),
+            "time t (s), ticks counted from 1 s"
+        );
+        // Round ticks keep three digits.
+        let t = TickText::choose(&[0.0, 2e-9, 4e-9], &fmt);
+        assert_eq!(t.digits, 3);
     }
 
     #[test]

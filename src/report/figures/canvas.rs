@@ -1,13 +1,16 @@
 //! The drawing kit every figure shares: colours, sizes, the titled frame, legends, panels,
 //! tick labels, the metadata block that maps pixels back to data, and small curve helpers.
 
-use super::axis::Axis;
+use super::axis::{Axis, TickFormat, TickText};
+use super::place::{Layout, Rect, rings, sweep, text_box, upright_box};
 use crate::estimate::Estimator;
 use crate::network::Network;
 use crate::response::{FreeResponse, Modal};
 use crate::units::{Dim, eng_number, eng_sig};
 use plotters::coord::Shift;
 use plotters::prelude::*;
+use plotters::style::FontTransform;
+use plotters::style::text_anchor::Pos;
 use std::fmt::Write as _;
 use std::io;
 
@@ -48,6 +51,8 @@ pub(crate) const FONT: &str = "sans-serif";
 pub(crate) const TICK_PX: u32 = 15;
 pub(crate) const DESC_PX: u32 = 16;
 pub(crate) const TITLE_PX: u32 = 20;
+/// Nominal size of labels inside plots.
+pub(crate) const LABEL_PX: u32 = 14;
 
 pub(crate) type Area<'a> = DrawingArea<SVGBackend<'a>, Shift>;
 pub(crate) type Chart<'a, 'b> = ChartContext<'a, SVGBackend<'b>, Cartesian2d<Axis, Axis>>;
@@ -123,6 +128,8 @@ pub(crate) struct Meta {
     lines: Vec<String>,
     dashes: Vec<(String, &'static str)>,
     title: String,
+    /// What is drawn where, for placing labels clear of it.
+    pub layout: Layout,
 }
 
 impl Meta {
@@ -133,10 +140,17 @@ impl Meta {
         }
     }
 
-    /// Record a panel's mapping from data to pixels.
+    /// Record a panel's mapping from data to pixels; labels placed from now on stay in it.
     pub fn panel(&mut self, name: &str, chart: &Chart<'_, '_>, x: &Axis, y: &Axis) {
         let (x0, y0) = chart.backend_coord(&(x.lo, y.lo));
         let (x1, y1) = chart.backend_coord(&(x.hi, y.hi));
+        let plot = [
+            f64::from(x0.min(x1)),
+            f64::from(y0.min(y1)),
+            f64::from(x0.max(x1)),
+            f64::from(y0.max(y1)),
+        ];
+        self.layout.enter(name, plot);
         self.lines.push(format!(
             "panel {name} {x0} {x1} {} {:e} {:e} {y0} {y1} {} {:e} {:e}",
             x.scale.name(),
@@ -145,6 +159,24 @@ impl Meta {
             y.scale.name(),
             y.lo,
             y.hi
+        ));
+    }
+
+    /// Record an axis's tick labels as drawn (empty labels are not drawn).
+    pub fn ticks(&mut self, panel: &str, axis: char, ticks: &TickText) {
+        for (v, l) in &ticks.labels {
+            if !l.is_empty() {
+                self.lines.push(format!("tick {panel} {axis} {v:e} {l}"));
+            }
+        }
+    }
+
+    /// Record a placed label's box (pixels) and text.
+    pub fn label_box(&mut self, r: &Rect, text: &str) {
+        let panel = self.layout.panel().to_string();
+        self.lines.push(format!(
+            "label {panel} {:.0} {:.0} {:.0} {:.0} {text}",
+            r[0], r[1], r[2], r[3]
         ));
     }
 
@@ -228,11 +260,22 @@ pub(crate) fn font(px: u32) -> TextStyle<'static> {
     (FONT, px).into_font().color(&INK)
 }
 
+/// Height of the title strip, px.
+pub(crate) fn title_height(sub: &str) -> u32 {
+    if sub.is_empty() { 34 } else { 56 }
+}
+
 /// Draw a title across the top strip and return the area below it.
 pub(crate) fn titled<'a>(root: &Area<'a>, title: &str, sub: &str) -> io::Result<Area<'a>> {
     root.fill(&WHITE).map_err(pe)?;
-    let h = if sub.is_empty() { 34 } else { 56 };
-    let (top, rest) = root.split_vertically(h);
+    let (top, rest) = root.split_vertically(title_height(sub));
+    title_strip(&top, title, sub)?;
+    Ok(rest)
+}
+
+/// The title and subtitle, in a strip of [`title_height`] (for figures that word their
+/// subtitle after drawing the rest).
+pub(crate) fn title_strip(top: &Area<'_>, title: &str, sub: &str) -> io::Result<()> {
     top.draw(&Text::new(
         title.to_string(),
         (14, 8),
@@ -246,7 +289,7 @@ pub(crate) fn titled<'a>(root: &Area<'a>, title: &str, sub: &str) -> io::Result<
         top.draw(&Text::new(sub.to_string(), (14, 33), font(14).color(&RULE)))
             .map_err(pe)?;
     }
-    Ok(rest)
+    Ok(())
 }
 
 /// A legend row in its own strip (returns the area below it). Entries wrap to a second row.
@@ -299,44 +342,63 @@ pub(crate) fn legend<'a>(area: &Area<'a>, keys: &[Key], meta: &mut Meta) -> io::
     Ok(rest)
 }
 
-/// Build a panel chart with our axes, grid and tick formatting.
-#[allow(clippy::too_many_arguments)]
+/// What a panel shows: its name (in the metadata), axes, descriptions, tick formatters and an
+/// optional caption above it.
+pub(crate) struct PanelSpec<'s> {
+    pub name: &'s str,
+    pub x: Axis,
+    pub y: Axis,
+    pub xdesc: &'s str,
+    pub ydesc: &'s str,
+    pub xfmt: TickFormat<'s>,
+    pub yfmt: TickFormat<'s>,
+    pub caption: Option<&'s str>,
+}
+
+/// Tick labels asked of each axis.
+const X_TICKS: usize = 8;
+const Y_TICKS: usize = 6;
+
+/// Build a panel chart with our axes, grid and tick labels (distinct on every axis: see
+/// [`TickText`]), and record it in the metadata.
 pub(crate) fn panel<'a, 'b>(
     area: &'a Area<'b>,
-    x: Axis,
-    y: Axis,
-    xdesc: &str,
-    ydesc: &str,
-    xfmt: &dyn Fn(&f64) -> String,
-    yfmt: &dyn Fn(&f64) -> String,
-    caption: Option<&str>,
+    spec: &PanelSpec<'_>,
+    meta: &mut Meta,
 ) -> io::Result<Chart<'a, 'b>> {
+    let xt = TickText::choose(&spec.x.ticks(X_TICKS), spec.xfmt);
+    let yt = TickText::choose(&spec.y.ticks(Y_TICKS), spec.yfmt);
     let mut b = ChartBuilder::on(area);
     b.margin_left(8)
         .margin_right(22)
-        .margin_top(if caption.is_some() { 4 } else { 10 })
+        .margin_top(if spec.caption.is_some() { 4 } else { 10 })
         .x_label_area_size(48)
         .y_label_area_size(92);
-    if let Some(c) = caption {
+    if let Some(c) = spec.caption {
         b.caption(c, (FONT, 15, FontStyle::Bold).into_font().color(&INK));
     }
-    let mut chart = b.build_cartesian_2d(x, y).map_err(pe)?;
+    let mut chart = b.build_cartesian_2d(spec.x, spec.y).map_err(pe)?;
+    let xlabel = |v: &f64| xt.label(*v, spec.xfmt);
+    let ylabel = |v: &f64| yt.label(*v, spec.yfmt);
     chart
         .configure_mesh()
-        .x_labels(8)
-        .y_labels(6)
+        .x_labels(X_TICKS)
+        .y_labels(Y_TICKS)
         .max_light_lines(1)
         .light_line_style(GRID.mix(0.45))
         .bold_line_style(GRID)
         .axis_style(INK.mix(0.8))
         .label_style(font(TICK_PX))
         .axis_desc_style(font(DESC_PX))
-        .x_desc(xdesc)
-        .y_desc(ydesc)
-        .x_label_formatter(xfmt)
-        .y_label_formatter(yfmt)
+        .x_desc(xt.describe(spec.xdesc, spec.xfmt))
+        .y_desc(yt.describe(spec.ydesc, spec.yfmt))
+        .x_label_formatter(&xlabel)
+        .y_label_formatter(&ylabel)
         .draw()
         .map_err(pe)?;
+    meta.panel(spec.name, &chart, &spec.x, &spec.y);
+    meta.ticks(spec.name, 'x', &xt);
+    meta.ticks(spec.name, 'y', &yt);
     Ok(chart)
 }
 
@@ -391,44 +453,52 @@ pub(crate) fn y_range(values: impl IntoIterator<Item = f64>, margin: f64) -> (f6
 }
 
 /// Tick label for a time.
-pub(crate) fn time_tick(v: &f64) -> String {
-    eng_sig(*v, Dim::Time, 3)
+pub(crate) fn time_tick(v: f64, digits: usize) -> String {
+    eng_sig(v, Dim::Time, digits)
 }
 
 /// Tick label for a plain quantity with a compound unit (e.g. "/s").
-pub(crate) fn unit_tick(v: f64, unit: &str) -> String {
+pub(crate) fn unit_tick(v: f64, unit: &str, digits: usize) -> String {
     if v == 0.0 {
         return "0".into();
     }
-    format!("{}{unit}", eng_number(v, 3)).trim_end().to_string()
+    format!("{}{unit}", eng_number(v, digits))
+        .trim_end()
+        .to_string()
 }
 
 /// Tick label for a dimensionless ratio near 1 (no prefixes, which would read as units).
-pub(crate) fn ratio_tick(v: f64) -> String {
+pub(crate) fn ratio_tick(v: f64, digits: usize) -> String {
     if v == 0.0 {
         return "0".into();
     }
     if (1e-3..1e4).contains(&v.abs()) {
-        let t = format!("{v:.4}");
+        let t = format!("{v:.*}", digits + 1);
         t.trim_end_matches('0').trim_end_matches('.').to_string()
     } else {
-        format!("{v:.2e}")
+        format!("{v:.*e}", digits.saturating_sub(1))
     }
 }
 
 /// Tick label for a fraction shown in percent.
-pub(crate) fn percent_tick(v: &f64) -> String {
+pub(crate) fn percent_tick(v: f64, digits: usize) -> String {
     let p = v * 100.0;
     if p == 0.0 {
         return "0 %".into();
     }
     let a = p.abs();
     if (1e-4..1e5).contains(&a) {
-        let t = format!("{p:.6}");
+        let t = format!("{p:.*}", digits + 3);
         let t = t.trim_end_matches('0').trim_end_matches('.');
         format!("{t} %")
     } else {
-        let t = format!("{p:.1e}").replace(".0e", "e");
+        let t = format!("{p:.*e}", digits.saturating_sub(2));
+        let t = match t.split_once('e') {
+            Some((m, e)) if m.contains('.') => {
+                format!("{}e{e}", m.trim_end_matches('0').trim_end_matches('.'))
+            }
+            _ => t,
+        };
         format!("{t} %")
     }
 }
@@ -495,9 +565,10 @@ pub(crate) fn render(
     Ok(meta.finish(buf))
 }
 
-/// Draw a curve (already in the panel's range) as one polyline.
+/// Draw a curve (already in the panel's range) as one polyline, and keep labels off it.
 pub(crate) fn curve(
     chart: &mut Chart<'_, '_>,
+    meta: &mut Meta,
     pts: Vec<(f64, f64)>,
     colour: RGBColor,
     width: u32,
@@ -505,6 +576,14 @@ pub(crate) fn curve(
     if pts.len() < 2 {
         return Ok(());
     }
+    let px: Vec<(f64, f64)> = pts
+        .iter()
+        .map(|p| {
+            let (x, y) = chart.backend_coord(p);
+            (f64::from(x), f64::from(y))
+        })
+        .collect();
+    meta.layout.stroke(px, width);
     chart
         .draw_series(std::iter::once(PathElement::new(
             pts,
@@ -517,28 +596,162 @@ pub(crate) fn curve(
 /// Draw a straight segment between two data points.
 pub(crate) fn segment(
     chart: &mut Chart<'_, '_>,
+    meta: &mut Meta,
     a: (f64, f64),
     b: (f64, f64),
     colour: RGBColor,
     width: u32,
 ) -> io::Result<()> {
-    curve(chart, vec![a, b], colour, width)
+    curve(chart, meta, vec![a, b], colour, width)
 }
 
-/// Write a label at a data point, offset by pixels, anchored as given.
-pub(crate) fn label(
+/// Draw a filled round marker, and keep labels off it.
+pub(crate) fn marker(
     chart: &mut Chart<'_, '_>,
+    meta: &mut Meta,
     at: (f64, f64),
-    offset: (i32, i32),
-    text: &str,
+    radius: u32,
     colour: RGBColor,
-    anchor: plotters::style::text_anchor::Pos,
 ) -> io::Result<()> {
-    let style = font(14).color(&colour).pos(anchor);
+    block(chart, meta, at, radius);
     chart
-        .draw_series(std::iter::once(
-            EmptyElement::at(at) + Text::new(text.to_string(), offset, style),
-        ))
+        .draw_series(std::iter::once(Circle::new(at, radius, colour.filled())))
         .map_err(pe)?;
     Ok(())
+}
+
+/// Keep labels off a square of half-side `half` px around a data point (a marker drawn by
+/// the caller).
+pub(crate) fn block(chart: &Chart<'_, '_>, meta: &mut Meta, at: (f64, f64), half: u32) {
+    let (x, y) = chart.backend_coord(&at);
+    let (x, y, h) = (f64::from(x), f64::from(y), f64::from(half));
+    meta.layout.block([x - h, y - h, x + h, y + h]);
+}
+
+/// Where a label may go: a data point, a pixel offset from it, and which point of the text
+/// (see `Pos`) sits there.
+#[derive(Clone, Copy)]
+pub(crate) struct Spot {
+    pub at: (f64, f64),
+    pub offset: (i32, i32),
+    pub anchor: Pos,
+    /// The text turned to read upwards (the anchor as for the unturned text).
+    pub upright: bool,
+}
+
+impl Spot {
+    pub fn new(at: (f64, f64), offset: (i32, i32), anchor: Pos) -> Spot {
+        Spot {
+            at,
+            offset,
+            anchor,
+            upright: false,
+        }
+    }
+
+    /// A spot for a text turned to read upwards.
+    pub fn upright(at: (f64, f64), offset: (i32, i32), anchor: Pos) -> Spot {
+        Spot {
+            upright: true,
+            ..Spot::new(at, offset, anchor)
+        }
+    }
+}
+
+/// Write a label at the first of `spots` where it collides with nothing drawn so far (no
+/// curve, marker or label; inside the plot). When none is free, spots nearby and then
+/// anywhere in the plot are tried, nearest first. Draw every curve a label must avoid before
+/// placing it. Returns false when no free place was found (the label is then drawn at the
+/// first spot).
+pub(crate) fn label(
+    chart: &mut Chart<'_, '_>,
+    meta: &mut Meta,
+    spots: &[Spot],
+    text: &str,
+    colour: RGBColor,
+) -> io::Result<bool> {
+    place(chart, meta, spots, text, colour, true)
+}
+
+/// Write a label at the first free one of `spots` only; draws nothing and returns false when
+/// none is free.
+pub(crate) fn label_if_room(
+    chart: &mut Chart<'_, '_>,
+    meta: &mut Meta,
+    spots: &[Spot],
+    text: &str,
+    colour: RGBColor,
+) -> io::Result<bool> {
+    place(chart, meta, spots, text, colour, false)
+}
+
+fn place(
+    chart: &mut Chart<'_, '_>,
+    meta: &mut Meta,
+    spots: &[Spot],
+    text: &str,
+    colour: RGBColor,
+    search: bool,
+) -> io::Result<bool> {
+    let Some(first) = spots.first() else {
+        return Ok(false);
+    };
+    let px = |at: &(f64, f64)| {
+        let (x, y) = chart.backend_coord(at);
+        (f64::from(x), f64::from(y))
+    };
+    let origin = px(&first.at);
+    let fits = |at: (f64, f64), anchor: Pos, upright: bool| {
+        let r = if upright {
+            upright_box(at, anchor, text, LABEL_PX)
+        } else {
+            text_box(at, anchor, text, LABEL_PX)
+        };
+        meta.layout.free(&r).then_some((at, anchor, upright, r))
+    };
+    let shifted = |s: &Spot| {
+        let p = px(&s.at);
+        (p.0 + f64::from(s.offset.0), p.1 + f64::from(s.offset.1))
+    };
+    let mut found = spots
+        .iter()
+        .find_map(|s| fits(shifted(s), s.anchor, s.upright));
+    if found.is_none() && search {
+        found = spots
+            .iter()
+            .flat_map(|s| rings(px(&s.at)))
+            .find_map(|(at, anchor)| fits(at, anchor, false));
+        if found.is_none()
+            && let Some(plot) = meta.layout.plot()
+        {
+            found = sweep(plot, origin)
+                .into_iter()
+                .find_map(|(at, anchor)| fits(at, anchor, false));
+        }
+    }
+    let ok = found.is_some();
+    if !ok && !search {
+        return Ok(false);
+    }
+    let (at, anchor, upright, r) = found.unwrap_or_else(|| {
+        let at = shifted(first);
+        let r = text_box(at, first.anchor, text, LABEL_PX);
+        (at, first.anchor, false, r)
+    });
+    meta.layout.block(r);
+    meta.label_box(&r, text);
+    let offset = (
+        (at.0 - origin.0).round() as i32,
+        (at.1 - origin.1).round() as i32,
+    );
+    let mut style = font(LABEL_PX).color(&colour).pos(anchor);
+    if upright {
+        style = style.transform(FontTransform::Rotate270);
+    }
+    chart
+        .draw_series(std::iter::once(
+            EmptyElement::at(first.at) + Text::new(text.to_string(), offset, style),
+        ))
+        .map_err(pe)?;
+    Ok(ok)
 }

@@ -3,8 +3,8 @@
 
 use super::axis::Axis;
 use super::canvas::{
-    Area, BAND, BUDGET, EXTRA, Key, Meta, PLANNED, PREDICTED, RULE, curve, label, legend, panel,
-    pe, percent_tick, render, segment, time_tick, titled,
+    Area, BAND, BUDGET, Chart, EXTRA, Key, MARK, Meta, PLANNED, PREDICTED, PanelSpec, RULE, Spot,
+    curve, label, legend, marker, panel, pe, percent_tick, render, segment, time_tick, titled,
 };
 use crate::estimate::Metric;
 use crate::pipeline::PlanOutcome;
@@ -43,11 +43,21 @@ pub struct DesignCurve {
     pub cap_width: f64,
     /// The budget, when one was given.
     pub budget: Option<f64>,
+    /// Fastest time scale 1/max|p| over every mode, significant or not, s.
+    pub fastest: f64,
 }
+
+/// Decades the sweep may reach below its first choice of narrowest width.
+const EXTRA_DECADES: i32 = 6;
 
 /// Sweep the metric over `n` widths (log-spaced, plus the rule-of-thumb and planned widths),
 /// exactly as the planner's search evaluates it: `tied_pulse(area, w, edge_ratio)`, run at
 /// least twice the pulse's end. `progress(done, total)` is called after each width.
+///
+/// The sweep starts below the rule-of-thumb, planned and fastest widths, and further down
+/// (a decade at a time) until the narrowest pulse does at least as well as the planned one: a
+/// mode faster than the pulse's time scale makes a hump near its own time scale, which a
+/// sweep starting on it would cut in two (it then reads as a spike at the left).
 pub fn design_curve(
     sc: &Scenario,
     out: &PlanOutcome,
@@ -59,7 +69,20 @@ pub fn design_curve(
     let rule_width = prep.tau_plan / s.width_ratio;
     let planned_width = out.pulse.width_50();
     let cap_width = crate::plan::width_cap(prep, s).width(prep.tau_plan);
-    let lo = rule_width.min(planned_width) / 30.0;
+    let f = |w: f64| {
+        let p = tied_pulse(sc.area.area(w), w, s.edge_ratio);
+        let run = prep.run.max(p.end() * 2.0);
+        prep.estimator.metric(&p, s.metric, run)
+    };
+    let planned_value = f(planned_width);
+    let floor = prep.estimator.rounding_floor();
+    let mut lo = rule_width.min(planned_width).min(prep.tau_fast) / 30.0;
+    for _ in 0..EXTRA_DECADES {
+        if f(lo) <= planned_value.max(floor) {
+            break;
+        }
+        lo /= 10.0;
+    }
     // Up to a few times the planned width (or the user's cap): wider pulses only leave the
     // budget further behind, and near the run length the metric loses its meaning.
     let user_cap = s.min_width_ratio.map_or(0.0, |_| cap_width * 1.5);
@@ -72,21 +95,17 @@ pub fn design_curve(
     widths.push(planned_width);
     widths.sort_by(f64::total_cmp);
     widths.dedup();
-    let f = |w: f64| {
-        let p = tied_pulse(sc.area.area(w), w, s.edge_ratio);
-        let run = prep.run.max(p.end() * 2.0);
-        prep.estimator.metric(&p, s.metric, run)
-    };
     let total = widths.len();
     let mut points = Vec::with_capacity(total);
     for (i, &w) in widths.iter().enumerate() {
-        points.push((w, f(w)));
+        let v = if w == planned_width {
+            planned_value
+        } else {
+            f(w)
+        };
+        points.push((w, v));
         progress(i + 1, total);
     }
-    let planned_value = points
-        .iter()
-        .find(|p| p.0 == planned_width)
-        .map_or_else(|| f(planned_width), |p| p.1);
     DesignCurve {
         metric: s.metric,
         points,
@@ -95,6 +114,7 @@ pub fn design_curve(
         planned_value,
         cap_width,
         budget: s.target_error,
+        fastest: prep.tau_fast,
     }
 }
 
@@ -114,8 +134,14 @@ fn positive_runs(points: &[(f64, f64)], floor: f64) -> Vec<Vec<(f64, f64)>> {
     out
 }
 
-/// The design figure. `extra_curves` are drawn too (none today; noise and total later).
-pub fn design_svg(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> io::Result<String> {
+/// The value at a fraction of an axis's length.
+fn along(axis: &Axis, f: f64) -> f64 {
+    let (a, b) = (axis.scale.forward(axis.lo), axis.scale.forward(axis.hi));
+    axis.scale.inverse(a + f * (b - a))
+}
+
+/// The design figure's axes and the floor below which values are drawn at the floor.
+fn design_axes(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> (Axis, Axis, f64) {
     let x = Axis::log(dc.points[0].0, dc.points[dc.points.len() - 1].0);
     let all = dc
         .points
@@ -138,7 +164,12 @@ pub fn design_svg(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> io::Result<S
     }
     // Zero crossings dive towards 0: keep at most ten decades below the top in view.
     let floor = vmin.max(vmax * 1e-10);
-    let y = Axis::log(floor / 1.6, vmax * 1.8);
+    (x, Axis::log(floor / 1.6, vmax * 1.8), floor)
+}
+
+/// The design figure. `extra_curves` are drawn too (noise and total, from the bundle).
+pub fn design_svg(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> io::Result<String> {
+    let (x, y, floor) = design_axes(dc, extra_curves);
     let title = "Design curve: error against pulse width";
     let sub = format!(
         "{} error (|relative|) of a pulse with edges tied to the width, log–log",
@@ -159,102 +190,181 @@ pub fn design_svg(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> io::Result<S
             keys.push(Key::dashed(BUDGET, 2, "8 5", "budget"));
         }
         keys.push(Key::dashed(RULE, 2, "10 4 2 4", "rule-of-thumb width"));
+        if shows_fastest(dc, &x) {
+            keys.push(Key::dashed(
+                MARK,
+                1,
+                "3 3",
+                "fastest time scale of any mode",
+            ));
+        }
         keys.push(Key::marker(PLANNED, "planned width"));
         keys.push(Key::line(BAND, 12, "wider than the cap"));
         let body = legend(&body, &keys, meta)?;
         meta.dash(BUDGET, "8 5");
         meta.dash(RULE, "10 4 2 4");
-        let mut ch = panel(
-            &body,
+        let spec = PanelSpec {
+            name: "design",
             x,
             y,
-            "pulse width at 50 % (s)",
-            "|relative error|",
-            &time_tick,
-            &percent_tick,
-            None,
-        )?;
-        meta.panel("design", &ch, &x, &y);
-        if dc.cap_width < x.hi {
-            ch.draw_series(std::iter::once(Rectangle::new(
-                [(dc.cap_width.max(x.lo), y.lo), (x.hi, y.hi)],
-                BAND.filled(),
-            )))
-            .map_err(pe)?;
-            label(
-                &mut ch,
-                (dc.cap_width.max(x.lo), y.lo),
-                (6, -6),
-                &format!("cap {}", eng(dc.cap_width, Dim::Time)),
-                RULE,
-                Pos::new(HPos::Left, VPos::Bottom),
-            )?;
-        }
-        for (i, c) in extra_curves.iter().enumerate() {
-            for run in positive_runs(&c.points, floor) {
-                curve(&mut ch, run, EXTRA[i % EXTRA.len()], 3)?;
-            }
-            meta.series("design", &format!("extra{i}"), EXTRA[i % EXTRA.len()]);
-        }
-        for run in positive_runs(&dc.points, floor) {
-            curve(&mut ch, run, PREDICTED, 3)?;
-        }
-        meta.series("design", "metric", PREDICTED);
-        if let Some(b) = dc.budget {
-            segment(&mut ch, (x.lo, b), (x.hi, b), BUDGET, 2)?;
-            label(
-                &mut ch,
-                (x.lo, b),
-                (8, -4),
-                &format!("budget {}", percent_unsigned(b)),
-                BUDGET,
-                Pos::new(HPos::Left, VPos::Bottom),
-            )?;
-        }
-        segment(
-            &mut ch,
-            (dc.rule_width, y.lo),
-            (dc.rule_width, y.hi),
-            RULE,
-            2,
-        )?;
-        label(
-            &mut ch,
-            (dc.rule_width, y.hi),
-            (-6, 26),
-            &format!("rule of thumb {}", eng(dc.rule_width, Dim::Time)),
-            RULE,
-            Pos::new(HPos::Right, VPos::Top),
-        )?;
-        let pv = dc.planned_value.max(floor);
-        segment(
-            &mut ch,
-            (dc.planned_width, y.lo),
-            (dc.planned_width, pv),
-            PLANNED,
-            1,
-        )?;
-        ch.draw_series(std::iter::once(Circle::new(
-            (dc.planned_width, pv),
-            6,
-            PLANNED.filled(),
+            xdesc: "pulse width at 50 % (s)",
+            ydesc: "|relative error|",
+            xfmt: &time_tick,
+            yfmt: &percent_tick,
+            caption: None,
+        };
+        let mut ch = panel(&body, &spec, meta)?;
+        design_lines(&mut ch, meta, dc, extra_curves, (&x, &y, floor))?;
+        design_labels(&mut ch, meta, dc, (&x, &y, floor))
+    })
+}
+
+/// True when a mode faster than the planned scale has its time scale inside the sweep (it
+/// explains a hump there), so the figure marks it.
+fn shows_fastest(dc: &DesignCurve, x: &Axis) -> bool {
+    dc.fastest < dc.rule_width.max(dc.planned_width) && x.contains(dc.fastest)
+}
+
+/// The cap band, the curves, the budget and rule-of-thumb lines and the planned marker.
+fn design_lines(
+    ch: &mut Chart<'_, '_>,
+    meta: &mut Meta,
+    dc: &DesignCurve,
+    extra_curves: &[ExtraCurve],
+    (x, y, floor): (&Axis, &Axis, f64),
+) -> io::Result<()> {
+    if dc.cap_width < x.hi {
+        ch.draw_series(std::iter::once(Rectangle::new(
+            [(dc.cap_width.max(x.lo), y.lo), (x.hi, y.hi)],
+            BAND.filled(),
         )))
         .map_err(pe)?;
-        meta.point("design", "planned", dc.planned_width, dc.planned_value);
-        // Label on the side with room: left of the marker in the right third of the panel.
-        let right_side = x.fraction(dc.planned_width) < 0.66;
+    }
+    for (i, c) in extra_curves.iter().enumerate() {
+        for run in positive_runs(&c.points, floor) {
+            curve(ch, meta, run, EXTRA[i % EXTRA.len()], 3)?;
+        }
+        meta.series("design", &format!("extra{i}"), EXTRA[i % EXTRA.len()]);
+    }
+    for run in positive_runs(&dc.points, floor) {
+        curve(ch, meta, run, PREDICTED, 3)?;
+    }
+    meta.series("design", "metric", PREDICTED);
+    if let Some(b) = dc.budget {
+        segment(ch, meta, (x.lo, b), (x.hi, b), BUDGET, 2)?;
+    }
+    let rule = (dc.rule_width, y.lo);
+    segment(ch, meta, rule, (dc.rule_width, y.hi), RULE, 2)?;
+    if shows_fastest(dc, x) {
+        meta.dash(MARK, "3 3");
+        segment(ch, meta, (dc.fastest, y.lo), (dc.fastest, y.hi), MARK, 1)?;
+    }
+    let pv = dc.planned_value.max(floor);
+    segment(
+        ch,
+        meta,
+        (dc.planned_width, y.lo),
+        (dc.planned_width, pv),
+        PLANNED,
+        1,
+    )?;
+    marker(ch, meta, (dc.planned_width, pv), 6, PLANNED)?;
+    meta.point("design", "planned", dc.planned_width, dc.planned_value);
+    Ok(())
+}
+
+/// Labels for the planned point, the budget, the rule of thumb and the cap, each where it
+/// collides with nothing drawn.
+fn design_labels(
+    ch: &mut Chart<'_, '_>,
+    meta: &mut Meta,
+    dc: &DesignCurve,
+    (x, y, floor): (&Axis, &Axis, f64),
+) -> io::Result<()> {
+    let pos = Pos::new;
+    let planned = (dc.planned_width, dc.planned_value.max(floor));
+    let around = [
+        Spot::new(planned, (10, 8), pos(HPos::Left, VPos::Top)),
+        Spot::new(planned, (-10, -8), pos(HPos::Right, VPos::Bottom)),
+        Spot::new(planned, (10, -8), pos(HPos::Left, VPos::Bottom)),
+        Spot::new(planned, (-10, 8), pos(HPos::Right, VPos::Top)),
+    ];
+    let text = format!(
+        "planned {} ({})",
+        eng(dc.planned_width, Dim::Time),
+        percent_unsigned(dc.planned_value)
+    );
+    label(ch, meta, &around, &text, PLANNED)?;
+    if let Some(b) = dc.budget {
+        let spots: Vec<Spot> = [0.0, 0.2, 0.4, 0.6]
+            .iter()
+            .flat_map(|&f| {
+                let at = (along(x, f), b);
+                [
+                    Spot::new(at, (8, -4), pos(HPos::Left, VPos::Bottom)),
+                    Spot::new(at, (8, 4), pos(HPos::Left, VPos::Top)),
+                ]
+            })
+            .collect();
         label(
-            &mut ch,
-            (dc.planned_width, pv),
-            (if right_side { 10 } else { -10 }, 6),
-            &format!(
-                "planned {} ({})",
-                eng(dc.planned_width, Dim::Time),
-                percent_unsigned(dc.planned_value)
-            ),
-            PLANNED,
-            Pos::new(if right_side { HPos::Left } else { HPos::Right }, VPos::Top),
+            ch,
+            meta,
+            &spots,
+            &format!("budget {}", percent_unsigned(b)),
+            BUDGET,
         )?;
-        Ok(())
-    })
+    }
+    let spots: Vec<Spot> = [0.94, 0.75, 0.5, 0.25, 0.06]
+        .iter()
+        .flat_map(|&f| {
+            let at = (dc.rule_width, along(y, f));
+            [
+                Spot::new(at, (-6, 0), pos(HPos::Right, VPos::Center)),
+                Spot::new(at, (6, 0), pos(HPos::Left, VPos::Center)),
+            ]
+        })
+        .collect();
+    let text = format!("rule of thumb {}", eng(dc.rule_width, Dim::Time));
+    label(ch, meta, &spots, &text, RULE)?;
+    mark_labels(ch, meta, dc, (x, y))
+}
+
+/// Labels for the fastest time scale (when marked) and the cap.
+fn mark_labels(
+    ch: &mut Chart<'_, '_>,
+    meta: &mut Meta,
+    dc: &DesignCurve,
+    (x, y): (&Axis, &Axis),
+) -> io::Result<()> {
+    let pos = Pos::new;
+    if shows_fastest(dc, x) {
+        let spots: Vec<Spot> = [0.06, 0.25, 0.5, 0.75, 0.94]
+            .iter()
+            .flat_map(|&f| {
+                let at = (dc.fastest, along(y, f));
+                [
+                    Spot::new(at, (6, 0), pos(HPos::Left, VPos::Center)),
+                    Spot::new(at, (-6, 0), pos(HPos::Right, VPos::Center)),
+                ]
+            })
+            .collect();
+        let text = format!("fastest time scale {}", eng(dc.fastest, Dim::Time));
+        label(ch, meta, &spots, &text, MARK)?;
+    }
+    if dc.cap_width < x.hi {
+        let at = dc.cap_width.max(x.lo);
+        let spots = [
+            Spot::new((at, y.lo), (6, -6), pos(HPos::Left, VPos::Bottom)),
+            Spot::new((at, y.hi), (6, 6), pos(HPos::Left, VPos::Top)),
+            Spot::new((at, along(y, 0.5)), (6, 0), pos(HPos::Left, VPos::Center)),
+        ];
+        label(
+            ch,
+            meta,
+            &spots,
+            &format!("cap {}", eng(dc.cap_width, Dim::Time)),
+            RULE,
+        )?;
+    }
+    Ok(())
 }

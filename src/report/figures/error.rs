@@ -3,15 +3,15 @@
 
 use super::axis::Axis;
 use super::canvas::{
-    ALIGNED, Area, BUDGET, EXTRA, Key, Meta, PREDICTED, components, curve, decimate, label, legend,
-    panel, pe, percent_tick, render, time_tick, titled, y_range,
+    ALIGNED, Area, BUDGET, Chart, EXTRA, Key, Meta, PREDICTED, PanelSpec, Spot, components, curve,
+    decimate, label, legend, marker, panel, percent_tick, render, segment, time_tick, titled,
+    y_range,
 };
-use crate::estimate::Metric;
+use crate::estimate::{Metric, WindowError};
 use crate::plan::Prepared;
 use crate::pulse::Trapezoid;
 use crate::scenario::Scenario;
 use crate::units::{Dim, eng, percent_unsigned};
-use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 use std::io;
 
@@ -71,6 +71,16 @@ pub(crate) fn errors(
         .collect()
 }
 
+/// What the error figure shows, shared by its two panels.
+struct ErrorView<'a> {
+    sc: &'a Scenario,
+    prep: &'a Prepared,
+    pulse: &'a Trapezoid,
+    data: &'a [ErrorSeries],
+    window: Option<WindowError>,
+    x: Axis,
+}
+
 /// The error figure.
 pub fn error_svg(
     sc: &Scenario,
@@ -97,121 +107,150 @@ pub fn error_svg(
     } else {
         "per mode, each relative to its own h(0⁺); residues unknown".to_string()
     };
-    let window = if known {
-        Some(prep.estimator.window(pulse, run))
-    } else {
-        None
+    let view = ErrorView {
+        sc,
+        prep,
+        pulse,
+        data: &data,
+        window: known.then(|| prep.estimator.window(pulse, run)),
+        x: Axis::log(end, run.max(end * 1.001)),
     };
-    let budget = sc.plan.target_error;
-    let metric = sc.plan.metric;
     let mut meta = Meta::new(title);
     render(860, &mut meta, |root: &Area<'_>, meta: &mut Meta| {
         let body = titled(root, title, &sub)?;
-        let mut keys = Vec::new();
-        if known {
-            keys.push(Key::line(PREDICTED, 2, "raw: y(t)/area − h(t)"));
-            keys.push(Key::line(
-                ALIGNED,
-                2,
-                "aligned: y(t)/area − h(t − centroid)",
-            ));
-        } else {
-            for (i, (lab, _)) in data.iter().enumerate() {
-                keys.push(Key::line(EXTRA[i % EXTRA.len()], 2, format!("mode {lab}")));
-            }
-        }
-        if budget.is_some() {
-            keys.push(Key::dashed(
-                BUDGET,
-                2,
-                "8 5",
-                "± budget (on its metric's panel)",
-            ));
-        }
-        if window.is_some() {
-            keys.push(Key::marker(ALIGNED, "window maximum"));
-        }
-        let body = legend(&body, &keys, meta)?;
+        let body = legend(&body, &error_keys(&view), meta)?;
         meta.dash(BUDGET, "8 5");
         let (top, bottom) = body.split_vertically(body.dim_in_pixel().1 as i32 / 2);
-        let x = Axis::log(end, run.max(end * 1.001));
-        for (pname, area, aligned) in [("raw", &top, false), ("aligned", &bottom, true)] {
-            let pick = |p: &(f64, f64, f64)| if aligned { p.2 } else { p.1 };
-            let (lo, hi) = y_range(data.iter().flat_map(|(_, v)| v.iter().map(pick)), 0.1);
-            let y = Axis::linear(lo.min(0.0), hi.max(0.0));
-            let caption = if aligned {
-                "centroid-aligned error (y/area − h(t − c)) / normaliser"
-            } else {
-                "raw error (y/area − h(t)) / normaliser"
-            };
-            let mut ch = panel(
-                area,
-                x,
-                y,
-                "time t (s), logarithmic",
-                "relative error",
-                &time_tick,
-                &percent_tick,
-                Some(caption),
-            )?;
-            meta.panel(pname, &ch, &x, &y);
-            for (i, (_, v)) in data.iter().enumerate() {
-                let colour = if known {
-                    if aligned { ALIGNED } else { PREDICTED }
-                } else {
-                    EXTRA[i % EXTRA.len()]
-                };
-                let pts: Vec<(f64, f64)> = v.iter().map(|p| (p.0, pick(p))).collect();
-                curve(&mut ch, decimate(&pts, &x, COLUMNS), colour, 2)?;
-                meta.series(pname, if known { pname } else { "mode" }, colour);
-            }
-            let on_this = matches!(
-                (metric, aligned),
-                (Metric::T0, false) | (Metric::T0Aligned | Metric::Window, true)
-            );
-            if let (Some(b), true) = (budget, on_this) {
-                for s in [b, -b] {
-                    if y.contains(s) {
-                        super::canvas::segment(&mut ch, (x.lo, s), (x.hi, s), BUDGET, 2)?;
-                    }
-                }
-                if !y.contains(b) && !y.contains(-b) {
-                    label(
-                        &mut ch,
-                        (x.hi, y.hi),
-                        (-6, 6),
-                        &format!("budget ±{} lies outside this range", percent_unsigned(b)),
-                        BUDGET,
-                        Pos::new(HPos::Right, VPos::Top),
-                    )?;
-                }
-            }
-            if let (Some(w), true) = (window, aligned) {
-                // The signed error at the window maximum.
-                let e = errors(sc, prep, pulse, &[w.t_max])[0].1[0].2;
-                if x.contains(w.t_max) && y.contains(e) {
-                    ch.draw_series(std::iter::once(Circle::new(
-                        (w.t_max, e),
-                        5,
-                        ALIGNED.filled(),
-                    )))
-                    .map_err(pe)?;
-                    label(
-                        &mut ch,
-                        (w.t_max, e),
-                        (10, if e >= 0.0 { -10 } else { 10 }),
-                        &format!(
-                            "max {} at {}",
-                            percent_unsigned(w.max_rel),
-                            eng(w.t_max, Dim::Time)
-                        ),
-                        ALIGNED,
-                        Pos::new(HPos::Left, if e >= 0.0 { VPos::Bottom } else { VPos::Top }),
-                    )?;
-                    meta.point(pname, "window_max", w.t_max, e);
-                }
-            }
-        }
+        error_panel(&top, &view, false, meta)?;
+        error_panel(&bottom, &view, true, meta)?;
         Ok(())
     })
+}
+
+/// The legend of the error figure.
+fn error_keys(view: &ErrorView<'_>) -> Vec<Key> {
+    let mut keys = Vec::new();
+    if view.sc.network.residues_known {
+        keys.push(Key::line(PREDICTED, 2, "raw: y(t)/area − h(t)"));
+        keys.push(Key::line(
+            ALIGNED,
+            2,
+            "aligned: y(t)/area − h(t − centroid)",
+        ));
+    } else {
+        for (i, (lab, _)) in view.data.iter().enumerate() {
+            keys.push(Key::line(EXTRA[i % EXTRA.len()], 2, format!("mode {lab}")));
+        }
+    }
+    if view.sc.plan.target_error.is_some() {
+        keys.push(Key::dashed(
+            BUDGET,
+            2,
+            "8 5",
+            "± budget (on its metric's panel)",
+        ));
+    }
+    if view.window.is_some() {
+        keys.push(Key::marker(ALIGNED, "window maximum"));
+    }
+    keys
+}
+
+/// One panel: the raw or the aligned error, its budget lines, the window maximum, labels.
+fn error_panel(
+    area: &Area<'_>,
+    view: &ErrorView<'_>,
+    aligned: bool,
+    meta: &mut Meta,
+) -> io::Result<()> {
+    let known = view.sc.network.residues_known;
+    let pname = if aligned { "aligned" } else { "raw" };
+    let pick = |p: &(f64, f64, f64)| if aligned { p.2 } else { p.1 };
+    let (lo, hi) = y_range(view.data.iter().flat_map(|(_, v)| v.iter().map(pick)), 0.1);
+    let (x, y) = (view.x, Axis::linear(lo.min(0.0), hi.max(0.0)));
+    let spec = PanelSpec {
+        name: pname,
+        x,
+        y,
+        xdesc: "time t (s), logarithmic",
+        ydesc: "relative error",
+        xfmt: &time_tick,
+        yfmt: &percent_tick,
+        caption: Some(if aligned {
+            "centroid-aligned error (y/area − h(t − c)) / normaliser"
+        } else {
+            "raw error (y/area − h(t)) / normaliser"
+        }),
+    };
+    let mut ch = panel(area, &spec, meta)?;
+    for (i, (_, v)) in view.data.iter().enumerate() {
+        let colour = match (known, aligned) {
+            (true, true) => ALIGNED,
+            (true, false) => PREDICTED,
+            (false, _) => EXTRA[i % EXTRA.len()],
+        };
+        let pts: Vec<(f64, f64)> = v.iter().map(|p| (p.0, pick(p))).collect();
+        curve(&mut ch, meta, decimate(&pts, &x, COLUMNS), colour, 2)?;
+        meta.series(pname, if known { pname } else { "mode" }, colour);
+    }
+    let metric = view.sc.plan.metric;
+    let on_this = matches!(
+        (metric, aligned),
+        (Metric::T0, false) | (Metric::T0Aligned | Metric::Window, true)
+    );
+    let budget = view.sc.plan.target_error.filter(|_| on_this);
+    if let Some(b) = budget {
+        for s in [b, -b] {
+            if y.contains(s) {
+                segment(&mut ch, meta, (x.lo, s), (x.hi, s), BUDGET, 2)?;
+            }
+        }
+    }
+    let window_max = match (view.window, aligned) {
+        (Some(w), true) => window_marker(&mut ch, meta, view, &w, (pname, &y))?,
+        _ => None,
+    };
+    if let Some((at, text)) = window_max {
+        let spots = [
+            Spot::new(at, (10, -10), Pos::new(HPos::Left, VPos::Bottom)),
+            Spot::new(at, (10, 10), Pos::new(HPos::Left, VPos::Top)),
+            Spot::new(at, (-10, -10), Pos::new(HPos::Right, VPos::Bottom)),
+            Spot::new(at, (-10, 10), Pos::new(HPos::Right, VPos::Top)),
+        ];
+        label(&mut ch, meta, &spots, &text, ALIGNED)?;
+    }
+    if let Some(b) = budget.filter(|&b| !y.contains(b) && !y.contains(-b)) {
+        let corner = |at, dx, h| Spot::new(at, (dx, 6), Pos::new(h, VPos::Top));
+        let spots = [
+            corner((x.hi, y.hi), -6, HPos::Right),
+            corner((x.lo, y.hi), 6, HPos::Left),
+            Spot::new((x.hi, y.lo), (-6, -6), Pos::new(HPos::Right, VPos::Bottom)),
+            Spot::new((x.lo, y.lo), (6, -6), Pos::new(HPos::Left, VPos::Bottom)),
+        ];
+        let text = format!("budget ±{} lies outside this range", percent_unsigned(b));
+        label(&mut ch, meta, &spots, &text, BUDGET)?;
+    }
+    Ok(())
+}
+
+/// Mark the signed error at the window maximum; returns where it sits and its label text.
+fn window_marker(
+    ch: &mut Chart<'_, '_>,
+    meta: &mut Meta,
+    view: &ErrorView<'_>,
+    w: &WindowError,
+    (pname, y): (&str, &Axis),
+) -> io::Result<Option<((f64, f64), String)>> {
+    let e = errors(view.sc, view.prep, view.pulse, &[w.t_max])[0].1[0].2;
+    if !view.x.contains(w.t_max) || !y.contains(e) {
+        return Ok(None);
+    }
+    marker(ch, meta, (w.t_max, e), 5, ALIGNED)?;
+    meta.point(pname, "window_max", w.t_max, e);
+    let text = format!(
+        "max {} at {}",
+        percent_unsigned(w.max_rel),
+        eng(w.t_max, Dim::Time)
+    );
+    Ok(Some(((w.t_max, e), text)))
 }

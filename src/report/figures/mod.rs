@@ -14,6 +14,7 @@ pub mod axis;
 pub mod canvas;
 mod design;
 mod error;
+mod place;
 mod poles;
 mod response;
 mod stimulus;
