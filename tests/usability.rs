@@ -278,6 +278,12 @@ fn item8_units_everywhere_with_the_sign() {
     assert!(peaks.contains("-") && peaks.contains("V "), "{peaks}");
     assert!(out.contains("Cursors (h and y/area in V/(A·s))"), "{out}");
     assert!(!out.contains("-0.000"), "{out}");
+    // The figures say the same unit.
+    let b = dir.join("bundle");
+    run(&["plan", f.to_str().unwrap(), "--out", b.to_str().unwrap()]);
+    let svg = std::fs::read_to_string(b.join("response.svg")).unwrap();
+    assert!(svg.contains("V/(A·s)"), "response.svg lacks the unit");
+    assert!(!svg.contains("(1/s)"));
     // A residue's rounding-level real part is not printed as a figure.
     let osc = "[network]\npoles = [\"-1+1Gj\", \"-1-1Gj\"]\ngain = \"1G\"\n";
     let f = write(&dir, "osc.toml", osc);

@@ -330,14 +330,16 @@ fn draw_view(
     let known = sc.network.residues_known;
     let ((lo, hi), clip) = value_range(view.data, view.direct, end);
     let (x, y) = (view.x, Axis::linear(lo, hi));
+    // The unit of h from the drive's and the output's kinds: /s, V/(A·s), A/(V·s).
+    let h_unit = crate::units::h_unit(sc.drive, sc.output);
     let ydesc = if known {
-        "h(t), y(t)/area (1/s)"
+        format!("h(t), y(t)/area ({h_unit})")
     } else {
-        "per mode h/h(0⁺), y/(area·h(0⁺))"
+        "per mode h/h(0⁺), y/(area·h(0⁺))".to_string()
     };
     let ytick = |v: f64, d: usize| {
         if known {
-            unit_tick(v, "/s", d)
+            unit_tick(v, &h_unit, d)
         } else {
             ratio_tick(v, d)
         }
@@ -351,7 +353,7 @@ fn draw_view(
         } else {
             "time t (s)"
         },
-        ydesc,
+        ydesc: &ydesc,
         xfmt: &time_tick,
         yfmt: &ytick,
         caption: Some(view.caption),
@@ -379,7 +381,8 @@ fn draw_view(
         mode_labels(&mut ch, meta, view.data, comps, &x, &y)?;
     }
     if let Some(peak) = clip {
-        clip_label(&mut ch, meta, peak, end, known, &x, &y)?;
+        let unit = if known { h_unit.as_str() } else { "" };
+        clip_label(&mut ch, meta, peak, end, unit, &x, &y)?;
     }
     Ok(())
 }
@@ -418,7 +421,7 @@ fn clip_label(
     meta: &mut Meta,
     peak: f64,
     end: f64,
-    known: bool,
+    unit: &str,
     x: &Axis,
     y: &Axis,
 ) -> io::Result<()> {
@@ -429,7 +432,7 @@ fn clip_label(
     let text = format!(
         "{} clipped: y/area reaches {} during the pulse",
         if top { "↑" } else { "↓" },
-        unit_tick(peak, if known { "/s" } else { "" }, 3)
+        unit_tick(peak, unit, 3)
     );
     let spots = [
         Spot::new((end.min(x.hi), edge), (8, dy), Pos::new(HPos::Left, v)),
