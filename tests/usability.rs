@@ -406,6 +406,21 @@ fn item10_flags() {
         .filter(|t| (1e-6..1e-5).contains(t))
         .count();
     assert!(near >= 50, "{near} rows between 1 and 10 µs");
+    // assess writes its own bundle.
+    let ab = dir.join("assess-bundle");
+    let o = run(&["assess", g.to_str().unwrap(), "--out", ab.to_str().unwrap()]);
+    assert!(matches!(o.status.code(), Some(0 | 1)), "{}", stderr(&o));
+    for f in [
+        "report.html",
+        "assess.json",
+        "response.csv",
+        "stimulus.svg",
+        "error.svg",
+    ] {
+        assert!(ab.join(f).is_file(), "{f} missing");
+    }
+    let html = std::fs::read_to_string(ab.join("report.html")).unwrap();
+    assert!(html.contains("Pulse assessed"));
     // Time constants only: the unit residues are said.
     let t = write(&dir, "tc.toml", "[network]\ntime_constants = [\"1 ms\"]\n");
     let o = run(&[

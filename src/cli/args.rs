@@ -25,6 +25,13 @@ pub enum Command {
         file: PathBuf,
         #[command(flatten)]
         common: Common,
+        /// Also write the report bundle (figures, report.html, response.csv, assess.json) to
+        /// out/<scenario name>-assess/.
+        #[arg(long)]
+        report: bool,
+        /// Folder for the report bundle instead of out/<scenario name>-assess/ (implies --report).
+        #[arg(long, value_name = "DIR")]
+        out: Option<PathBuf>,
     },
     /// Write the ideal and predicted responses on a time grid to CSV.
     Response {

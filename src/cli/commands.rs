@@ -100,8 +100,14 @@ fn write_bundle(
     Ok(())
 }
 
-/// `pulseplan assess`.
-pub(crate) fn assess(file: &Path, common: &Common, quiet: bool) -> Result<Outcome> {
+/// `pulseplan assess`; `bundle` is Some when a report bundle is asked for (with its folder,
+/// when given).
+pub(crate) fn assess(
+    file: &Path,
+    common: &Common,
+    bundle: Option<Option<std::path::PathBuf>>,
+    quiet: bool,
+) -> Result<Outcome> {
     let sc = load(file)?;
     let times = parse_times(&common.at)?;
     let Some(given) = sc.pulse.clone() else {
@@ -111,6 +117,19 @@ pub(crate) fn assess(file: &Path, common: &Common, quiet: bool) -> Result<Outcom
         )));
     };
     let out = crate::pipeline::assess(&sc, &given.pulse, given.run);
+    if let Some(dir) = bundle {
+        let dir = dir.unwrap_or_else(|| Path::new("out").join(format!("{}-assess", sc.name)));
+        let written = report::write_assess_bundle(&dir, &sc, &out)
+            .with_context(|| format!("cannot write the report bundle in {}", dir.display()))?;
+        if !quiet {
+            eprintln!(
+                "wrote {} files to {} (open {})",
+                written.len(),
+                dir.display(),
+                dir.join("report.html").display()
+            );
+        }
+    }
     let cs = out.prep.estimator.cursors(&out.pulse, &times);
     let text = if common.json {
         serde_json::to_string_pretty(&report::assess_json(&sc, &out, &cs))? + "\n"

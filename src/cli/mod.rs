@@ -30,7 +30,15 @@ pub fn run(cli: Cli) -> Result<Outcome> {
     let quiet = cli.quiet;
     match cli.command {
         Command::Plan(args) => commands::plan(args, quiet),
-        Command::Assess { file, common } => commands::assess(&file, &common, quiet),
+        Command::Assess {
+            file,
+            common,
+            report,
+            out,
+        } => {
+            let bundle = (report || out.is_some()).then_some(out);
+            commands::assess(&file, &common, bundle, quiet)
+        }
         Command::Response {
             file,
             csv,

@@ -99,3 +99,36 @@ pub fn write_bundle_with(
     bundle.commit()?;
     Ok(written)
 }
+
+/// Write the bundle for an assessment into `dir`, whole or not at all: stimulus.svg,
+/// response.svg, error.svg, poles.svg, report.html, response.csv (the given pulse) and
+/// assess.json. Returns the paths written.
+pub fn write_assess_bundle(
+    dir: &Path,
+    sc: &Scenario,
+    out: &crate::pipeline::AssessOutcome,
+) -> std::io::Result<Vec<PathBuf>> {
+    let figures = super::figures::assess_figures(sc, out)?;
+    let bundle = AtomicDir::new(dir)?;
+    let mut written = Vec::new();
+    for f in &figures {
+        written.push(bundle.write(&f.file, f.svg.as_bytes())?);
+    }
+    let html = super::html::assess_html(sc, out, &figures);
+    written.push(bundle.write("report.html", html.as_bytes())?);
+    let logs = super::csv_out::log_times(
+        &sc.network,
+        &out.pulse,
+        out.run,
+        super::csv_out::LOG_POINTS.min(RESPONSE_POINTS),
+    );
+    let rows =
+        super::csv_out::response_rows(&sc.network, &out.pulse, out.run, RESPONSE_POINTS, &logs);
+    super::csv_out::write_response_csv(&bundle.path("response.csv"), &rows)?;
+    written.push(bundle.final_path("response.csv"));
+    let json = serde_json::to_string_pretty(&super::json::assess_json(sc, out, &[]))
+        .map_err(std::io::Error::other)?;
+    written.push(bundle.write("assess.json", (json + "\n").as_bytes())?);
+    bundle.commit()?;
+    Ok(written)
+}

@@ -4,10 +4,13 @@
 use super::figures::Figure;
 use super::markup::escape;
 use super::words::{self, Context, Units};
+use crate::bench::BenchPlan;
 use crate::estimate::{ErrorEstimate, NormalisedBy};
 use crate::network::{Network, NetworkSpec};
+use crate::notice::Note;
 use crate::notice::Warning;
-use crate::pipeline::PlanOutcome;
+use crate::pipeline::{AssessOutcome, PlanOutcome};
+use crate::plan::Prepared;
 use crate::pulse::Trapezoid;
 use crate::scenario::Scenario;
 use crate::units::{Dim, Signal, eng, percent_unsigned, plain};
@@ -221,10 +224,9 @@ fn modes_table(s: &mut String, net: &Network, significant: &[bool], u: &Units) {
 }
 
 /// The bench section: display amplitude, scaling, period, capture, notes.
-fn bench_html(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
-    let b = &out.bench;
+fn bench_html(s: &mut String, sc: &Scenario, b: &BenchPlan, plan_notes: &[Note]) {
     let _ = writeln!(s, "<section><h2>On the bench</h2><table><tbody>");
-    let (lines, notes) = super::tables::bench_summary(sc, b, &out.notes);
+    let (lines, notes) = super::tables::bench_summary(sc, b, plan_notes);
     for (label, line) in lines {
         text_row(s, label, &[line]);
     }
@@ -457,12 +459,27 @@ fn budget_text(sc: &Scenario, out: &PlanOutcome) -> String {
 }
 
 fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
-    if ws.is_empty() {
+    let (act, info): (Vec<&Warning>, Vec<&Warning>) = ws
+        .iter()
+        .partition(|w| w.severity() == crate::notice::Severity::Act);
+    if !info.is_empty() {
+        let _ = writeln!(s, "<h3>Notes</h3><ul class=\"notes\">");
+        for w in info {
+            let _ = writeln!(
+                s,
+                "<li><code>{}</code> {}</li>",
+                escape(w.code()),
+                escape(&words::warning_text(w, cx))
+            );
+        }
+        let _ = writeln!(s, "</ul>");
+    }
+    if act.is_empty() {
         let _ = writeln!(s, "<p class=\"ok\">No warnings.</p>");
         return;
     }
     let _ = writeln!(s, "<ul class=\"warnings\">");
-    for w in ws {
+    for w in act {
         let _ = writeln!(
             s,
             "<li><code>{}</code> {}</li>",
@@ -510,36 +527,67 @@ pub fn inline_svg(svg: &str) -> String {
 /// The HTML report for `plan`, with the given figures inlined in order.
 pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String {
     let mut s = String::with_capacity(64 * 1024);
-    s = head_html(s, sc);
+    let prep = &out.prep;
+    s = head_html(s, sc, "pulse plan");
     s = summary_html(s, sc, out);
-    s = network_html(s, sc, out);
-    s = network_facts_html(s, sc, out);
-    s = time_scales_html(s, sc, out);
+    s = network_html(s, sc, prep);
+    s = network_facts_html(s, sc, prep);
+    s = time_scales_html(s, sc, prep);
     s = plan_section_html(s, sc, out);
     let u = Units::of(sc.drive, sc.output);
-    bench_html(&mut s, sc, out);
+    bench_html(&mut s, sc, &out.bench, &out.notes);
     tolerance_html(&mut s, out, &u);
-    s = errors_section_html(s, out, &u);
-    s = warnings_section_html(s, sc, out);
+    let widened = out.budget.as_ref().is_some_and(|b| b.widening.is_some());
+    let heading = "Predicted error of the recommended pulse";
+    let rule = widened.then_some(&out.rule_estimate);
+    s = errors_section_html(s, heading, &out.estimate, rule, &u);
+    s = warnings_section_html(s, sc, prep, &out.estimate, &out.warnings);
     s = figures_html(s, sc, figures);
     boxed_tables(&s)
 }
 
-// The sections below each take the report so far and return it extended.
+/// The HTML report for `assess`: the network, the pulse given, the bench's check of it, its
+/// predicted errors and warnings, and the figures.
+pub fn assess_html(sc: &Scenario, out: &AssessOutcome, figures: &[Figure]) -> String {
+    let mut s = String::with_capacity(64 * 1024);
+    let prep = &out.prep;
+    s = head_html(s, sc, "pulse assessed");
+    s = network_html(s, sc, prep);
+    s = network_facts_html(s, sc, prep);
+    s = time_scales_html(s, sc, prep);
+    let _ = writeln!(
+        s,
+        "<section><h2>Pulse assessed ([pulse], {})</h2>",
+        escape(&super::tables::pulse_place(sc))
+    );
+    pulses_table(&mut s, &[("given", &out.pulse)], out.run, sc.drive);
+    let _ = writeln!(s, "</section>");
+    let u = Units::of(sc.drive, sc.output);
+    bench_html(&mut s, sc, &out.bench, &[]);
+    s = errors_section_html(
+        s,
+        "Predicted error of the given pulse",
+        &out.estimate,
+        None,
+        &u,
+    );
+    s = warnings_section_html(s, sc, prep, &out.estimate, &out.warnings);
+    s = figures_html(s, sc, figures);
+    boxed_tables(&s)
+}
 
-/// The document head and the report's header.
-fn head_html(mut s: String, sc: &Scenario) -> String {
+fn head_html(mut s: String, sc: &Scenario, kind: &str) -> String {
     let title = sc.title.clone().unwrap_or_else(|| sc.name.clone());
     let _ = writeln!(
         s,
         "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
          <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n\
-         <title>{} — pulse plan</title>\n<style>{CSS}</style>\n</head>\n<body>\n<main>",
+         <title>{} — {kind}</title>\n<style>{CSS}</style>\n</head>\n<body>\n<main>",
         escape(&title)
     );
     let _ = writeln!(
         s,
-        "<header class=\"top\"><div class=\"kicker\">pulseplan {} · pulse plan</div><h1>{}</h1>\
+        "<header class=\"top\"><div class=\"kicker\">pulseplan {} · {kind}</div><h1>{}</h1>\
          <div class=\"file\">{}</div></header>",
         env!("CARGO_PKG_VERSION"),
         escape(&title),
@@ -647,10 +695,9 @@ fn cards_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
 }
 
 /// The network function and the modes table.
-fn network_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
+fn network_html(mut s: String, sc: &Scenario, prep: &Prepared) -> String {
     // Network.
     let net = &sc.network;
-    let prep = &out.prep;
     let _ = writeln!(
         s,
         "<section><h2>Network function and modes</h2><p>{}</p>",
@@ -668,9 +715,8 @@ fn network_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
 }
 
 /// Zeros, direct term, improper part, h(0⁺) and peak.
-fn network_facts_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
+fn network_facts_html(mut s: String, sc: &Scenario, prep: &Prepared) -> String {
     let net = &sc.network;
-    let prep = &out.prep;
     let u = Units::of(sc.drive, sc.output);
     let _ = writeln!(s, "<table><tbody>");
     if !net.zeros.is_empty() {
@@ -727,9 +773,8 @@ fn network_facts_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String
 }
 
 /// Time scales, settling and stability; closes the network section.
-fn time_scales_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
+fn time_scales_html(mut s: String, sc: &Scenario, prep: &Prepared) -> String {
     let net = &sc.network;
-    let prep = &out.prep;
     row(
         &mut s,
         "fastest time scale 1/max|p|",
@@ -801,16 +846,16 @@ fn plan_section_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String 
 }
 
 /// The predicted error of the recommended pulse.
-fn errors_section_html(mut s: String, out: &PlanOutcome, u: &Units) -> String {
-    let e = &out.estimate;
-    // Errors.
-    let _ = writeln!(
-        s,
-        "<section><h2>Predicted error of the recommended pulse</h2>"
-    );
+fn errors_section_html(
+    mut s: String,
+    heading: &str,
+    e: &ErrorEstimate,
+    rule: Option<&ErrorEstimate>,
+    u: &Units,
+) -> String {
+    let _ = writeln!(s, "<section><h2>{}</h2>", escape(heading));
     errors_table(&mut s, e, u);
-    if out.budget.as_ref().is_some_and(|b| b.widening.is_some()) {
-        let r = &out.rule_estimate;
+    if let Some(r) = rule {
         let _ = writeln!(
             s,
             "<p class=\"note\">For comparison, the rule-of-thumb pulse: raw {}, aligned {}, window max {}.</p>",
@@ -824,9 +869,13 @@ fn errors_section_html(mut s: String, out: &PlanOutcome, u: &Units) -> String {
 }
 
 /// Warnings and cautions.
-fn warnings_section_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> String {
-    let prep = &out.prep;
-    let e = &out.estimate;
+fn warnings_section_html(
+    mut s: String,
+    sc: &Scenario,
+    prep: &Prepared,
+    e: &ErrorEstimate,
+    warnings: &[Warning],
+) -> String {
     // Warnings and cautions.
     let _ = writeln!(s, "<section><h2>Warnings</h2>");
     let basis = words::run_basis_text(&prep.run_basis);
@@ -834,7 +883,7 @@ fn warnings_section_html(mut s: String, sc: &Scenario, out: &PlanOutcome) -> Str
         drive: sc.drive,
         run_basis: &basis,
     };
-    warnings_html(&mut s, &out.warnings, &cx);
+    warnings_html(&mut s, warnings, &cx);
     let _ = writeln!(
         s,
         "<h3>Cautions</h3><ul class=\"cautions\">\

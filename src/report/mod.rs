@@ -14,10 +14,10 @@ mod tables;
 mod text;
 pub mod words;
 
-pub use bundle::{BundleOptions, write_bundle, write_bundle_with};
+pub use bundle::{BundleOptions, write_assess_bundle, write_bundle, write_bundle_with};
 pub use csv_out::{LOG_POINTS, log_times, response_rows, write_response_csv};
 pub use files::write_atomic;
-pub use html::plan_html;
+pub use html::{assess_html, plan_html};
 pub use json::{assess_json, plan_json};
 pub use sheet::{generator_sheet, stimulus_csv};
 pub use text::{assess_text, plan_text};

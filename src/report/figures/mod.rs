@@ -109,3 +109,42 @@ pub fn plan_figures(
         },
     ])
 }
+
+/// The figures for `assess`: the given pulse, the responses, the error after it and the pole
+/// map (no design curve: nothing was planned).
+pub fn assess_figures(
+    sc: &crate::scenario::Scenario,
+    out: &crate::pipeline::AssessOutcome,
+) -> io::Result<Vec<Figure>> {
+    let (prep, pulse, run) = (&out.prep, &out.pulse, out.run);
+    Ok(vec![
+        Figure {
+            file: "stimulus.svg".into(),
+            caption: "The pulse assessed ([pulse]) with its amplitude, 50 % width, centroid and \
+                      10–90 % edges; the edges are enlarged below."
+                .into(),
+            svg: stimulus_svg(pulse, sc.drive)?,
+        },
+        Figure {
+            file: "response.svg".into(),
+            caption: "Ideal impulse response h(t) and the predicted response to the pulse, \
+                      divided by its area."
+                .into(),
+            svg: response_svg(sc, prep, pulse, run)?,
+        },
+        Figure {
+            file: "error.svg".into(),
+            caption: "Error after the pulse, raw and allowing for the pulse's delay (its \
+                      centroid), relative to the normaliser, on a logarithmic time axis."
+                .into(),
+            svg: error_svg(sc, prep, pulse, run)?,
+        },
+        Figure {
+            file: "poles.svg".into(),
+            caption: "Poles and zeros of the network function, each mode labelled with its \
+                      time scales."
+                .into(),
+            svg: poles_svg(&sc.network, Some(prep.significant.as_slice()))?,
+        },
+    ])
+}

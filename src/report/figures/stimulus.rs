@@ -38,7 +38,7 @@ fn level_range(a: f64, below: f64, above: f64) -> Axis {
 /// falling edges enlarged below it so the 10–90 % transition durations can be read.
 pub fn stimulus_svg(pulse: &Trapezoid, drive: Signal) -> io::Result<String> {
     let dim = drive.dim();
-    let title = "Stimulus: the planned pulse";
+    let title = "Stimulus: the pulse";
     let sub = format!(
         "amplitude {}, width (50 %) {}, rise/fall 10–90 % {} / {}, centroid {}",
         eng(pulse.amplitude, dim),
