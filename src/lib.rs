@@ -4,8 +4,9 @@
 //! Modules in their import order, lowest first; a module names only modules above it in this
 //! list ([`units`] and [`notice`] are shared by all):
 //! [`units`] → [`notice`] → [`pulse`] → [`netlist`] → [`network`] → [`tolerance`] →
-//! [`response`] → [`estimate`] → [`plan`] → [`bench`] → [`measure`] (reading a test back) → [`scenario`] (TOML into the settings
-//! types above) → [`pipeline`] (the stages in order) → [`report`] (text, HTML, JSON, CSV,
+//! [`response`] → [`estimate`] → [`fisher`] (the modal fit's Cramér–Rao bounds) → [`plan`] →
+//! [`bench`] → [`fitplan`] (planning for the fit reading) → [`measure`] (reading a test back)
+//! → [`scenario`] (TOML into the settings types above) → [`pipeline`] (the stages in order) → [`report`] (text, HTML, JSON, CSV,
 //! figures) → [`cli`].
 
 pub mod units;
@@ -24,9 +25,13 @@ pub mod response;
 
 pub mod estimate;
 
+pub mod fisher;
+
 pub mod plan;
 
 pub mod bench;
+
+pub mod fitplan;
 
 pub mod measure;
 

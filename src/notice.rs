@@ -241,6 +241,76 @@ pub enum Warning {
         /// 50 % width, s.
         width: f64,
     },
+    /// `reading = "fit"` asked for, but the fit's bounds cannot be given: the plan is the
+    /// raw/aligned one.
+    FitUnavailable {
+        /// Why.
+        reason: FitLimit,
+    },
+    /// A mode decays within a few samples after the pulse: the record cannot resolve it.
+    FitModeUnresolved {
+        /// Pole, rad/s.
+        pole: Complex64,
+        /// Its decay time 1/|Re p|, s.
+        decay: f64,
+        /// Sample interval, s.
+        interval: f64,
+    },
+    /// A mode too small against the noise for the fit to give its time constant.
+    FitModeWeak {
+        /// Pole, rad/s.
+        pole: Complex64,
+        /// Predicted 95 % half-width of its time constant, relative.
+        relative: f64,
+        /// Its output amplitude at the pulse end.
+        amplitude: f64,
+        /// Noise per averaged sample (σ/√N).
+        noise: f64,
+    },
+    /// Two poles closer than their predicted intervals: the fit may take them as one.
+    FitOrderAmbiguous {
+        /// First pole, rad/s.
+        first: Complex64,
+        /// Second pole, rad/s.
+        second: Complex64,
+        /// |p₁ − p₂|, rad/s.
+        separation: f64,
+        /// Sum of their 95 % half-widths, rad/s.
+        resolution: f64,
+    },
+    /// Modes the fit leaves out (not significant, unresolved or too weak) carry more of h than
+    /// the budget: the fit's h(0⁺)/window figures are off by up to their share.
+    FitLeftOutBias {
+        /// Σ weight·|r| of the left-out modes over the normaliser.
+        share: f64,
+        /// Budget.
+        budget: f64,
+    },
+    /// The budget is not reached by the fit within the test's limits.
+    FitBudgetUnreachable {
+        /// Best predicted 95 % half-width, relative.
+        best: f64,
+        /// Budget.
+        budget: f64,
+        /// Averages at that plan.
+        averages: u64,
+        /// Test time at that plan, s.
+        test_time: f64,
+    },
+}
+
+/// Why the modal fit's bounds cannot be given.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum FitLimit {
+    /// Only time constants are known: the amplitudes, hence the information, are not.
+    ResiduesUnknown,
+    /// A repeated pole: the fit's model of distinct exponentials does not hold it.
+    RepeatedPole,
+    /// A mode that does not decay.
+    NonDecaying,
+    /// The Fisher matrix is singular at this sampling (a mode not identifiable).
+    Singular,
 }
 
 impl Warning {
@@ -271,6 +341,12 @@ impl Warning {
             Warning::PeriodTooShort { .. } => "period-too-short",
             Warning::CaptureMemory { .. } => "capture-memory",
             Warning::CaptureUndersampled { .. } => "capture-undersampled",
+            Warning::FitUnavailable { .. } => "fit-unavailable",
+            Warning::FitModeUnresolved { .. } => "fit-mode-unresolved",
+            Warning::FitModeWeak { .. } => "fit-mode-weak",
+            Warning::FitOrderAmbiguous { .. } => "fit-order-ambiguous",
+            Warning::FitLeftOutBias { .. } => "fit-left-out-bias",
+            Warning::FitBudgetUnreachable { .. } => "fit-budget-unreachable",
         }
     }
 
@@ -357,6 +433,18 @@ pub enum Note {
         /// What the bias alone would allow, s.
         bias_width: f64,
     },
+    /// The network has a direct term D·δ(t): not a mode, so the fit's plan does not bound it.
+    FitDirectTerm {
+        /// D.
+        direct: f64,
+    },
+    /// Modes the fit leaves out, whose share of h stays within the budget.
+    FitModesLeftOut {
+        /// How many (conjugate pairs once).
+        count: usize,
+        /// Σ weight·|r| over the normaliser.
+        share: f64,
+    },
 }
 
 impl Note {
@@ -371,6 +459,8 @@ impl Note {
             Note::FewestAverages { .. } => "fewest-averages",
             Note::MemoryAssumed { .. } => "memory-assumed",
             Note::TwoRecords { .. } => "two-records",
+            Note::FitDirectTerm { .. } => "fit-direct-term",
+            Note::FitModesLeftOut { .. } => "fit-modes-left-out",
         }
     }
 }

@@ -4,6 +4,7 @@
 
 use crate::bench::{self, BenchInput, BenchPlan};
 use crate::estimate::ErrorEstimate;
+use crate::fitplan::{self, FitPlan, Reference};
 use crate::netlist::{self, NetlistSpec, Output, Stimulus};
 use crate::network::{Network, NetworkSpec};
 use crate::notice::{Note, Warning};
@@ -40,6 +41,9 @@ pub struct PlanOutcome {
     pub notes: Vec<Note>,
     /// Every warning, from every stage.
     pub warnings: Vec<Warning>,
+    /// The plan for the fit reading (`[plan] reading = "fit"`): its pulse and bench are then
+    /// `pulse` and `bench`, and the raw/aligned plan is kept for comparison inside it.
+    pub fit: Option<FitPlan>,
 }
 
 /// The evaluation of the scenario's own pulse.
@@ -123,6 +127,29 @@ pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync
         None,
     ));
     warnings.extend(fitted.warnings.iter().cloned());
+    let fit = (sc.plan.reading == plan::ReadingKind::Fit).then(|| {
+        let rule = bench::fit(&inp, &choice.prep, &choice.rule, true);
+        let reference = Reference {
+            rule: &rule,
+            budget: &fitted,
+        };
+        fitplan::design(&inp, &choice.prep, &sc.network, &reference)
+    });
+    let fit = match fit {
+        Some(Ok(fp)) => {
+            warnings = choice.warnings.clone();
+            warnings.extend(fp.warnings.iter().cloned());
+            warnings.extend(fp.bench.warnings.iter().cloned());
+            notes.extend(fp.notes.iter().cloned());
+            fitted = fp.bench.clone();
+            Some(fp)
+        }
+        Some(Err(reason)) => {
+            warnings.push(Warning::FitUnavailable { reason });
+            None
+        }
+        None => None,
+    };
     PlanOutcome {
         ideal_pulse: fitted.planned,
         pulse: fitted.pulse,
@@ -136,6 +163,7 @@ pub fn plan_with_progress(sc: &Scenario, progress: &(dyn Fn(usize, usize) + Sync
         robust: choice.robust,
         notes,
         warnings,
+        fit,
     }
 }
 

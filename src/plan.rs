@@ -36,6 +36,69 @@ pub struct PlanSettings {
     pub tolerances: bool,
     /// Run length in slowest time constants.
     pub settle_multiple: f64,
+    /// How h will be read from the capture.
+    pub reading: ReadingKind,
+    /// For the fit reading: the quantity whose predicted interval the budget applies to.
+    pub fit_quantity: FitQuantity,
+    /// Longest test (averages × period) the fit reading may plan, s.
+    pub max_test_time: Option<f64>,
+}
+
+/// How h will be read from the capture: y/area (raw), shifted by the pulse's centroid
+/// (aligned), or by the modal fit that removes the pulse exactly (`recover`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ReadingKind {
+    /// y(t)/area.
+    Raw,
+    /// y(t + centroid)/area.
+    Aligned,
+    /// The modal fit of the record after the pulse, with the pulse removed exactly.
+    Fit,
+}
+
+impl ReadingKind {
+    /// Name as written in scenarios and reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            ReadingKind::Raw => "raw",
+            ReadingKind::Aligned => "aligned",
+            ReadingKind::Fit => "fit",
+        }
+    }
+}
+
+/// What the fit reading's budget applies to: the 95 % interval of each significant mode's
+/// time constant (relative to it), of h(0⁺), or of h(t) over the window (both relative to
+/// the estimator's normaliser).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum FitQuantity {
+    /// Time constants −1/Re p.
+    TimeConstants,
+    /// h(0⁺).
+    H0,
+    /// h(t) over the window.
+    Window,
+}
+
+impl FitQuantity {
+    /// Name as written in scenarios (`metric`) and reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            FitQuantity::TimeConstants => "tau",
+            FitQuantity::H0 => "t0",
+            FitQuantity::Window => "window",
+        }
+    }
+
+    /// The fit's counterpart of a raw/aligned metric.
+    pub fn of_metric(m: Metric) -> FitQuantity {
+        match m {
+            Metric::T0 | Metric::T0Aligned => FitQuantity::H0,
+            Metric::Window => FitQuantity::Window,
+        }
+    }
 }
 
 impl Default for PlanSettings {
@@ -55,6 +118,9 @@ impl Default for PlanSettings {
             seed: 1,
             tolerances: true,
             settle_multiple: 5.0,
+            reading: ReadingKind::Raw,
+            fit_quantity: FitQuantity::H0,
+            max_test_time: None,
         }
     }
 }

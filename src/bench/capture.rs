@@ -85,6 +85,7 @@ pub fn plan_capture(
     run: f64,
     capture: Option<&Capture>,
     averages: u64,
+    min_pre_samples: f64,
 ) -> CapturePlan {
     let tau_fast = dynamics
         .iter()
@@ -95,8 +96,13 @@ pub fn plan_capture(
         .and_then(|c| c.max_sample_rate)
         .map_or(0.0, |r| 1.0 / r);
     let interval = want.max(min_interval);
-    let record_length = run / (1.0 - PRE_TRIGGER_SHARE);
-    let pre_trigger = record_length * PRE_TRIGGER_SHARE;
+    let share_pre = run / (1.0 - PRE_TRIGGER_SHARE) * PRE_TRIGGER_SHARE;
+    let pre_trigger = share_pre.max(min_pre_samples * interval);
+    let record_length = if pre_trigger > share_pre {
+        run + pre_trigger
+    } else {
+        run / (1.0 - PRE_TRIGGER_SHARE)
+    };
     // Counted in f64: a huge ratio must not wrap a cast.
     let count = (record_length / interval).ceil() + 1.0;
     let points = if count < u64::MAX as f64 {
@@ -199,7 +205,7 @@ mod tests {
             scale: 1e-4,
             decay: 1e-4,
         }];
-        let plan = plan_capture(&p, &dynamics, 1.0, Some(&c), 4);
+        let plan = plan_capture(&p, &dynamics, 1.0, Some(&c), 4, 0.0);
         assert!(plan.sample_rate <= 2.5e9 * (1.0 + 1e-12));
         assert!((plan.sample_interval - 1e-7).abs() < 1e-20);
         assert!(!plan.fits_memory);

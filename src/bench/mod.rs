@@ -88,9 +88,29 @@ fn working_budget(s: &PlanSettings, estimate: &ErrorEstimate) -> f64 {
         .unwrap_or_else(|| estimate.metric(s.metric).max(1e-3))
 }
 
+/// Samples before the pulse that a record for the fit reading holds at least: the fit takes
+/// the noise σ and the baseline from them, and a short pre-trigger (a tenth of a brief
+/// record) leaves σ uncertain by tens of percent, which misleads the order choice (1000
+/// samples hold σ to a few percent; our choice).
+pub const FIT_PRE_SAMPLES: f64 = 1000.0;
+
 /// Fit a planned pulse to the bench (`adapt`: timing and amplitude are changed to respect the
 /// limits), or only check a given pulse against it (`adapt` false).
 pub fn fit(inp: &BenchInput, prep: &Prepared, planned: &Trapezoid, adapt: bool) -> BenchPlan {
+    fit_for(inp, prep, planned, adapt, None)
+}
+
+/// [`fit`] for a reading: `fitted` is `Some(averages)` when h is read by the modal fit: the
+/// caller chose the averages (from the fit's bounds), the raw reading's noise step is skipped,
+/// and the record runs the planned run past the pulse's end (the fit reads the record after
+/// the pulse, however wide).
+pub fn fit_for(
+    inp: &BenchInput,
+    prep: &Prepared,
+    planned: &Trapezoid,
+    adapt: bool,
+    fitted: Option<u64>,
+) -> BenchPlan {
     let gen_ = inp.bench.generator.clone().unwrap_or_default();
     let s = inp.plan;
     let est = &prep.estimator;
@@ -111,11 +131,25 @@ pub fn fit(inp: &BenchInput, prep: &Prepared, planned: &Trapezoid, adapt: bool) 
     let pulse = amp.pulse;
     let estimate = est.estimate(&pulse, prep.run);
     let timing_change = timing::change(est, s, planned, &pulse, &estimate, prep.run);
-    if adapt {
+    // The fit removes the pulse exactly: the raw reading's timing error does not apply to it.
+    if adapt && fitted.is_none() {
         warnings.extend(timing::too_slow(s, timing_change));
     }
     let budget = working_budget(s, &estimate);
-    let noise = noise::assess(inp, prep, &pulse, &estimate, budget);
+    let noise = match fitted {
+        Some(n) => noise::NoiseStep {
+            fit: NoiseFit {
+                noise: None,
+                averages: Some(n),
+            },
+            ..Default::default()
+        },
+        None => noise::assess(inp, prep, &pulse, &estimate, budget),
+    };
+    let record_run = match fitted {
+        Some(_) => prep.run + pulse.end(),
+        None => prep.run,
+    };
     warnings.extend(noise.warnings.iter().cloned());
     notes.extend(noise.notes.iter().cloned());
     let period = repeat::choose_period(
@@ -130,9 +164,14 @@ pub fn fit(inp: &BenchInput, prep: &Prepared, planned: &Trapezoid, adapt: bool) 
     let cap = capture::plan_capture(
         &pulse,
         &dynamics(prep),
-        prep.run,
+        record_run,
         inp.bench.capture.as_ref(),
         noise.fit.averages.unwrap_or(1),
+        if fitted.is_some() {
+            FIT_PRE_SAMPLES
+        } else {
+            0.0
+        },
     );
     let (w, n) = capture::warnings(&cap, &pulse);
     warnings.extend(w);

@@ -82,6 +82,7 @@ struct PlanDetail<'a> {
     target: &'a Option<Budget>,
     run_basis: String,
     run_rule: &'a RunBasis,
+    reading: crate::plan::ReadingKind,
 }
 
 #[derive(Serialize)]
@@ -112,6 +113,9 @@ struct PlanDoc<'a> {
     notes: Vec<String>,
     notices: &'a [Note],
     plan: PlanDetail<'a>,
+    /// The plan for the fit reading, with `reading = "fit"`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    fit_plan: Option<&'a crate::fitplan::FitPlan>,
 }
 
 /// The fields both commands share, for one prepared network, pulse and bench view.
@@ -199,7 +203,9 @@ pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
             target: &out.budget,
             run_basis: words::run_basis_text(&out.prep.run_basis),
             run_rule: &out.prep.run_basis,
+            reading: sc.plan.reading,
         },
+        fit_plan: out.fit.as_ref(),
     };
     serde_json::to_value(doc).unwrap_or(Value::Null)
 }

@@ -255,8 +255,92 @@ fn bench_warning(w: &Warning, cx: &Context) -> String {
             "at the highest sample rate only {samples:.1} samples fall across the {} pulse",
             eng(*width, Dim::Time)
         ),
-        other => other.code().to_string(),
+        other => fit_warning(other).unwrap_or_else(|| other.code().to_string()),
     }
+}
+
+/// Why the fit's bounds cannot be given, worded.
+pub fn fit_limit_text(r: crate::notice::FitLimit) -> &'static str {
+    use crate::notice::FitLimit;
+    match r {
+        FitLimit::ResiduesUnknown => {
+            "only time constants are known, so the modes' amplitudes (and the information the record holds on them) are not"
+        }
+        FitLimit::RepeatedPole => {
+            "the network has a repeated pole, which the fit's model of distinct exponentials does not hold"
+        }
+        FitLimit::NonDecaying => "a mode does not decay, so no record holds all of it",
+        FitLimit::Singular => {
+            "the Fisher matrix is singular at the planned sampling: a mode cannot be told from the others or from the baseline"
+        }
+    }
+}
+
+fn fit_warning(w: &Warning) -> Option<String> {
+    Some(match w {
+        Warning::FitUnavailable { reason } => format!(
+            "reading = \"fit\": the fit's uncertainty cannot be predicted ({}); the plan below is the raw/aligned one",
+            fit_limit_text(*reason)
+        ),
+        Warning::FitModeUnresolved {
+            pole,
+            decay,
+            interval,
+        } => format!(
+            "the mode at {} decays in {}, under {RESOLVE} samples of {} after the pulse: the fit cannot resolve it; \
+             read what it contributes from the aligned reading of a narrow pulse (the budget plan), or sample faster",
+            fmt_pole(*pole),
+            eng(*decay, Dim::Time),
+            eng(*interval, Dim::Time),
+            RESOLVE = 5
+        ),
+        Warning::FitModeWeak {
+            pole,
+            relative,
+            amplitude,
+            noise,
+        } => format!(
+            "the mode at {} is too small to fit at this noise: amplitude {} at the pulse end against {} RMS per averaged \
+             sample gives its time constant only to ±{}; it is left out of the fit's figures (read it from the aligned \
+             reading, or raise the amplitude or the averages)",
+            fmt_pole(*pole),
+            eng_plain(*amplitude, 4),
+            eng_plain(*noise, 4),
+            percent_unsigned(*relative)
+        ),
+        Warning::FitOrderAmbiguous {
+            first,
+            second,
+            separation,
+            resolution,
+        } => format!(
+            "the poles {} and {} lie {} rad/s apart, within their summed 95 % intervals ({} rad/s): the fit may take them \
+             as one mode; check the order `recover` chooses",
+            fmt_pole(*first),
+            fmt_pole(*second),
+            eng_plain(*separation, 4),
+            eng_plain(*resolution, 4)
+        ),
+        Warning::FitLeftOutBias { share, budget } => format!(
+            "modes the fit leaves out carry up to {} of h, more than the {} budget: the fit's h(0⁺) and window figures \
+             are off by up to that much; read those from the aligned reading of the budget plan",
+            percent_unsigned(*share),
+            percent_unsigned(*budget)
+        ),
+        Warning::FitBudgetUnreachable {
+            best,
+            budget,
+            averages,
+            test_time,
+        } => format!(
+            "the fit reaches ±{} at best within the test's limits ({averages} averages, {}), not the {} budget: raise \
+             [plan] max_test_time or [capture] max_averages, lower the noise, or relax the budget",
+            percent_unsigned(*best),
+            eng(*test_time, Dim::Time),
+            percent_unsigned(*budget)
+        ),
+        _ => return None,
+    })
 }
 
 /// The sentence for a note.
@@ -323,6 +407,16 @@ pub fn note_text(n: &Note, drive: Signal) -> String {
             eng(*fine_interval, Dim::Time),
             eng(*fine_length, Dim::Time),
             eng(*coarse_interval, Dim::Time)
+        ),
+        Note::FitDirectTerm { direct } => format!(
+            "h(t) holds a direct term {}·δ(t): it is not a mode, so this plan does not bound it; `recover` estimates it \
+             from the samples during the pulse",
+            eng_plain(*direct, 4)
+        ),
+        Note::FitModesLeftOut { count, share } => format!(
+            "{count} mode(s) are left out of the fit (not significant, unresolved or too weak); together they carry at \
+             most {} of h, within the budget",
+            percent_unsigned(*share)
         ),
         Note::FewestAverages { width, bias_width } => format!(
             "with the output noise of [capture], the width needing the fewest averages for the budget is {} \

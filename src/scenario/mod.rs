@@ -185,6 +185,21 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
 
     let mut plan = planning::plan_settings(&rd, raw.plan.as_ref())?;
     planning::settle_metric(&rd, raw.plan.as_ref(), &network, &mut plan)?;
+    if plan.reading == crate::plan::ReadingKind::Fit
+        && bench.capture.as_ref().and_then(|c| c.noise).is_none()
+    {
+        let span = raw
+            .plan
+            .as_ref()
+            .and_then(|p| p.reading.as_ref())
+            .map(|r| r.span());
+        return Err(rd.err(
+            span.as_ref(),
+            "plan.reading",
+            "reading = \"fit\" plans the test by the fit's predicted uncertainty, which needs the output \
+             noise: give [capture] noise (RMS of one acquisition, e.g. \"1 mV\")",
+        ));
+    }
     let pulse = match &raw.pulse {
         Some(p) => Some(given_pulse(&rd, p, drive)?),
         None => None,

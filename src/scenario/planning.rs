@@ -4,7 +4,7 @@
 use super::reader::{Reader, SQty, ScenarioError};
 use crate::estimate::Metric;
 use crate::network::Network;
-use crate::plan::{MetricChoice, PlanSettings};
+use crate::plan::{FitQuantity, MetricChoice, PlanSettings, ReadingKind};
 use crate::units::Dim;
 use serde::Deserialize;
 use toml::Spanned;
@@ -24,6 +24,8 @@ pub(crate) struct RawPlan {
     pub(crate) samples: Option<SQty>,
     pub(crate) seed: Option<SQty>,
     pub(crate) settle_multiple: Option<SQty>,
+    pub(crate) reading: Option<Spanned<String>>,
+    pub(crate) max_test_time: Option<SQty>,
 }
 
 /// The default metric for the network when none is given; a reading at 0⁺ is refused for a
@@ -34,8 +36,14 @@ pub(crate) fn settle_metric(
     net: &Network,
     s: &mut PlanSettings,
 ) -> Result<(), ScenarioError> {
-    if s.metric_choice == MetricChoice::ByNetwork {
+    let by_network = s.metric_choice == MetricChoice::ByNetwork;
+    if by_network {
         s.metric = crate::plan::default_metric(net);
+    }
+    if s.fit_quantity != FitQuantity::TimeConstants {
+        s.fit_quantity = FitQuantity::of_metric(s.metric);
+    }
+    if by_network {
         return Ok(());
     }
     if s.metric != Metric::Window && net.h0_negligible() && net.residues_known {
@@ -98,10 +106,32 @@ fn metric(rd: &Reader, m: &Spanned<String>) -> Result<Metric, ScenarioError> {
         other => Err(rd.err(
             Some(&m.span()),
             "plan.metric",
-            format!("\"{other}\" is not a metric; use \"t0\", \"t0-aligned\" or \"window\""),
+            format!(
+                "\"{other}\" is not a metric; use \"t0\", \"t0-aligned\" or \"window\" (or \"tau\" with \
+                 reading = \"fit\")"
+            ),
         )),
     }
 }
+
+fn reading(rd: &Reader, m: &Spanned<String>) -> Result<ReadingKind, ScenarioError> {
+    match m.get_ref().as_str() {
+        "raw" => Ok(ReadingKind::Raw),
+        "aligned" => Ok(ReadingKind::Aligned),
+        "fit" => Ok(ReadingKind::Fit),
+        other => Err(rd.err(
+            Some(&m.span()),
+            "plan.reading",
+            format!(
+                "\"{other}\" is not a reading; use \"raw\" (y/area), \"aligned\" (y shifted by the pulse's \
+                 centroid) or \"fit\" (the modal fit of `recover`, which removes the pulse exactly)"
+            ),
+        )),
+    }
+}
+
+/// The most a planned test may last (a week): longer figures are typing slips (our choice).
+const MAX_TEST_TIME: f64 = 7.0 * 86_400.0;
 
 /// A whole number within [lo, hi].
 fn whole(rd: &Reader, q: &SQty, key: &str, (lo, hi): (f64, f64)) -> Result<f64, ScenarioError> {
@@ -128,9 +158,38 @@ pub(crate) fn plan_settings(
     if let Some(q) = &p.target_error {
         s.target_error = Some(budget(rd, q)?);
     }
+    if let Some(r) = &p.reading {
+        s.reading = reading(rd, r)?;
+    }
     if let Some(m) = &p.metric {
-        s.metric_choice = MetricChoice::Given;
-        s.metric = metric(rd, m)?;
+        if m.get_ref() == "tau" {
+            if s.reading != ReadingKind::Fit {
+                return Err(rd.err(
+                    Some(&m.span()),
+                    "plan.metric",
+                    "\"tau\" (the time constants' interval) is a figure of the modal fit: set reading = \"fit\" \
+                     in [plan], or use \"t0\", \"t0-aligned\" or \"window\"",
+                ));
+            }
+            s.fit_quantity = FitQuantity::TimeConstants;
+        } else {
+            s.metric_choice = MetricChoice::Given;
+            s.metric = metric(rd, m)?;
+        }
+    }
+    if let Some(q) = &p.max_test_time {
+        let v = rd.number(q, "plan.max_test_time", Dim::Time)?;
+        if !(v > 0.0 && v <= MAX_TEST_TIME) {
+            return Err(rd.err(
+                Some(&q.span()),
+                "plan.max_test_time",
+                format!(
+                    "{} is not a test length: give a positive time up to a week, e.g. \"10 s\"",
+                    rd.shown(q)
+                ),
+            ));
+        }
+        s.max_test_time = Some(v);
     }
     let ratio = "a ratio of the fastest time scale to the width";
     if let Some(q) = &p.width_ratio {
