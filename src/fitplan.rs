@@ -138,8 +138,11 @@ pub struct FitPlan {
     pub max_test_time: Option<f64>,
     /// Predicted relative 95 % half-width of the planned quantity.
     pub predicted: f64,
-    /// Whether it is within the budget.
+    /// Whether it is within the budget (and delivered).
     pub met: bool,
+    /// Whether the fit delivers the planned quantity at all (false when modes it leaves out
+    /// carry more of h than the budget, or a significant mode is unresolved or too weak).
+    pub delivered: bool,
     /// Every quantity's predicted interval.
     pub intervals: Vec<Interval>,
     /// Rule-of-thumb, budget and fit plans side by side.
@@ -187,6 +190,8 @@ struct Cx<'a> {
 struct Candidate {
     width: f64,
     bench: BenchPlan,
+    /// The modes the record resolves (the fit's model at this width).
+    modes: Vec<FitMode>,
     bounds: Option<Bounds>,
     /// Relative 95 % half-width of the planned quantity in one acquisition.
     one: Option<f64>,
@@ -218,11 +223,11 @@ impl Cx<'_> {
     }
 
     /// Relative 95 % half-width of the planned quantity, per acquisition, from the bounds.
-    fn quantity(&self, b: &Bounds) -> f64 {
+    fn quantity(&self, b: &Bounds, modes: &[FitMode]) -> f64 {
         let z = Z95 * self.sigma;
         match self.s.fit_quantity {
-            FitQuantity::TimeConstants => (0..self.modes.len())
-                .map(|k| z * b.tau_std(k) * (-self.modes[k].pole.re))
+            FitQuantity::TimeConstants => (0..modes.len())
+                .map(|k| z * b.tau_std(k) * (-modes[k].pole.re))
                 .fold(0.0, f64::max),
             FitQuantity::H0 => z * b.h_std(0.0) / self.normaliser(),
             FitQuantity::Window => z * b.window_std(&self.times).0 / self.normaliser(),
@@ -230,13 +235,20 @@ impl Cx<'_> {
     }
 
     fn candidate(&self, width: f64) -> Candidate {
-        let planned = tied_pulse(self.level * width, width, self.s.edge_ratio);
+        let mut planned = tied_pulse(self.level * width, width, self.s.edge_ratio);
+        // Exactly the level (area/width would round a hair above a limit equal to it).
+        planned.amplitude = self.level;
         let bench = bench::fit_for(self.inp, self.prep, &planned, true, Some(1));
-        let bounds = Bounds::new(&self.modes, &bench.pulse, &self.sampling(&bench)).ok();
-        let one = bounds.as_ref().map(|b| self.quantity(b));
+        let sampling = self.sampling(&bench);
+        let modes = resolved(&self.modes, sampling.interval);
+        let bounds = (!modes.is_empty())
+            .then(|| Bounds::new(&modes, &bench.pulse, &sampling).ok())
+            .flatten();
+        let one = bounds.as_ref().map(|b| self.quantity(b, &modes));
         Candidate {
             width,
             bench,
+            modes,
             bounds,
             one,
         }
@@ -269,6 +281,15 @@ impl Cx<'_> {
             (false, one / (n as f64).sqrt())
         }
     }
+}
+
+/// The modes that last at least [`RESOLVE_SAMPLES`] samples after the pulse.
+fn resolved(modes: &[FitMode], interval: f64) -> Vec<FitMode> {
+    modes
+        .iter()
+        .copied()
+        .filter(|m| 1.0 / -m.pole.re >= RESOLVE_SAMPLES * interval)
+        .collect()
 }
 
 fn period_of(b: &BenchPlan) -> f64 {
@@ -402,7 +423,11 @@ pub fn design(
         })
         .unwrap_or(0);
     if tried[best].bounds.is_none() {
-        return Err(Unbounded::Singular);
+        return Err(if tried.iter().all(|c| c.modes.is_empty()) {
+            Unbounded::Unresolved
+        } else {
+            Unbounded::Singular
+        });
     }
     let chosen = refine(&cx, &grid, best, cx.candidate(grid[best]));
     finish(cx, chosen, &tried, left_out, net.direct, reference)
@@ -425,10 +450,13 @@ fn finish(
     let mut warnings = Vec::new();
     let mut notes = Vec::new();
     // Modes the record cannot resolve: out of the model.
-    let (kept, unresolved): (Vec<FitMode>, Vec<FitMode>) = cx
+    let kept = resolved(&cx.modes, sampling.interval);
+    let unresolved: Vec<FitMode> = cx
         .modes
         .iter()
-        .partition(|m| 1.0 / -m.pole.re >= RESOLVE_SAMPLES * sampling.interval);
+        .copied()
+        .filter(|m| !kept.contains(m))
+        .collect();
     for m in &unresolved {
         warnings.push(Warning::FitModeUnresolved {
             pole: m.pole,
@@ -505,7 +533,11 @@ fn finish(
         relative: Z95 * noise_n * wstd / cx.normaliser(),
         delivered: h_ok,
     });
-    let predicted = cx.quantity(&bounds) / (n as f64).sqrt();
+    let predicted = cx.quantity(&bounds, &cx.modes) / (n as f64).sqrt();
+    let delivered = match cx.s.fit_quantity {
+        FitQuantity::TimeConstants => intervals.iter().all(|i| i.delivered),
+        _ => h_ok,
+    };
     if !met {
         warnings.push(Warning::FitBudgetUnreachable {
             best: predicted,
@@ -531,7 +563,7 @@ fn finish(
         raw_row(&cx, Which::Budget, reference.budget, test_time),
         fit_row,
     ];
-    let fewer = match (rows[1].averages, fit_row.averages) {
+    let fewer = match (rows[1].averages, fit_row.averages.filter(|_| delivered)) {
         (Some(a), Some(b)) => Some(a as f64 / b as f64),
         _ => None,
     };
@@ -545,7 +577,8 @@ fn finish(
         test_time,
         max_test_time: cx.s.max_test_time,
         predicted,
-        met,
+        met: met && delivered,
+        delivered,
         intervals,
         narrower_interval: rows[1].at_equal_time / predicted.max(f64::MIN_POSITIVE),
         comparison: rows.to_vec(),
@@ -579,13 +612,10 @@ fn order_checks(modes: &[FitMode], b: &Bounds, noise: f64, warnings: &mut Vec<Wa
     }
 }
 
-/// The raw metric the comparison reads a raw/aligned plan by (the fit's time constants have
-/// no raw counterpart: the window error stands in).
+/// The metric the comparison reads a raw/aligned plan by: the one that plan was made for (the
+/// fit's time constants have no raw counterpart).
 fn raw_metric(s: &PlanSettings) -> Metric {
-    match s.fit_quantity {
-        FitQuantity::TimeConstants => Metric::Window,
-        _ => s.metric,
-    }
+    s.metric
 }
 
 /// A raw/aligned plan's figures: bias, 95 % noise in one acquisition, averages for the budget

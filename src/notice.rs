@@ -311,6 +311,8 @@ pub enum FitLimit {
     NonDecaying,
     /// The Fisher matrix is singular at this sampling (a mode not identifiable).
     Singular,
+    /// No significant mode lasts a few samples after the pulse at the planned sampling.
+    Unresolved,
 }
 
 impl Warning {

@@ -97,6 +97,9 @@ pub fn write_atomic_with(
     Ok(())
 }
 
+/// Tries at putting a bundle in place while concurrent runs move the target.
+const COMMIT_TRIES: usize = 64;
+
 /// A folder written whole: files go into a temporary sibling folder, and [`commit`] puts it in
 /// place of the target in one rename (a previous target is moved aside first and removed
 /// after), so readers and concurrent runs only ever see a complete bundle.
@@ -142,30 +145,40 @@ impl AtomicDir {
     /// existing target (or one a concurrent run just put there) is first renamed aside; a
     /// bounded number of tries, then an error.
     pub fn commit(mut self) -> std::io::Result<()> {
-        for _ in 0..16 {
+        let mut last = None;
+        for _ in 0..COMMIT_TRIES {
             match std::fs::rename(&self.tmp.path, &self.target) {
                 Ok(()) => {
                     self.tmp.keep = true;
                     return Ok(());
                 }
-                Err(_) if self.target.exists() => {
-                    if !self.target.is_dir() {
-                        return Err(std::io::Error::other(format!(
-                            "{} exists and is not a folder",
-                            self.target.display()
-                        )));
+                Err(e) => {
+                    match std::fs::symlink_metadata(&self.target) {
+                        Ok(m) if !m.is_dir() => {
+                            return Err(std::io::Error::other(format!(
+                                "{} exists and is not a folder",
+                                self.target.display()
+                            )));
+                        }
+                        Ok(_) => {
+                            let (_, old) = sibling(&self.target, "old.d");
+                            let aside = Temporary::new(old);
+                            // Another run may have moved it already: then simply try again.
+                            let _ = std::fs::rename(&self.target, &aside.path);
+                        }
+                        // Gone (a concurrent run moved it aside) or unreachable: try again;
+                        // a lasting cause returns its own error below.
+                        Err(_) => {}
                     }
-                    let (_, old) = sibling(&self.target, "old.d");
-                    let aside = Temporary::new(old);
-                    // Another run may have moved it already: then simply try again.
-                    let _ = std::fs::rename(&self.target, &aside.path);
+                    last = Some(e);
                 }
-                Err(e) => return Err(e),
             }
         }
-        Err(std::io::Error::other(format!(
-            "{} kept changing under concurrent runs; the bundle was not written",
-            self.target.display()
-        )))
+        Err(last.unwrap_or_else(|| {
+            std::io::Error::other(format!(
+                "{} kept changing under concurrent runs; the bundle was not written",
+                self.target.display()
+            ))
+        }))
     }
 }

@@ -309,6 +309,44 @@ fn tolerance_html(s: &mut String, out: &PlanOutcome, u: &Units) {
     let _ = writeln!(s, "</section>");
 }
 
+/// The fit reading's plan: summary, predicted intervals, the three plans side by side.
+fn fit_html(s: &mut String, w: &super::fitting::FitWords) {
+    let _ = writeln!(
+        s,
+        "<section><h2>Fit reading</h2><p>{}</p>",
+        escape(&w.heading)
+    );
+    for line in &w.summary {
+        let _ = writeln!(s, "<p>{}</p>", escape(line));
+    }
+    let _ = writeln!(
+        s,
+        "<table><caption>Predicted 95 % intervals (Cramér–Rao bound of the fit)</caption>\
+         <tr><th>quantity</th><th>value ± half-width</th><th>relative</th></tr>"
+    );
+    for c in &w.intervals {
+        text_row(s, &c[0], &c[1..]);
+    }
+    let _ = writeln!(s, "</table>");
+    let _ = write!(
+        s,
+        "<table><caption>{}</caption><tr>",
+        escape(&w.compare_heading)
+    );
+    for c in &w.columns {
+        let _ = write!(s, "<th>{}</th>", escape(c));
+    }
+    let _ = writeln!(s, "</tr>");
+    for r in &w.rows {
+        row(s, &r[0], &r[1..]);
+    }
+    let _ = writeln!(
+        s,
+        "</table><p class=\"note\">{}</p></section>",
+        escape(&w.verdict)
+    );
+}
+
 /// A row whose cells are prose (left-aligned, wrapping).
 fn text_row(s: &mut String, head: &str, cells: &[String]) {
     let _ = write!(s, "<tr><th>{}</th>", escape(head));
@@ -536,6 +574,9 @@ pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String
     s = plan_section_html(s, sc, out);
     let u = Units::of(sc.drive, sc.output);
     bench_html(&mut s, sc, &out.bench, &out.notes);
+    if let Some(fp) = &out.fit {
+        fit_html(&mut s, &super::fitting::fit_words(fp, sc));
+    }
     tolerance_html(&mut s, out, &u);
     let widened = out.budget.as_ref().is_some_and(|b| b.widening.is_some());
     let heading = "Predicted error of the recommended pulse";

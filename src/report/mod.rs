@@ -5,6 +5,7 @@ pub mod bundle;
 mod csv_out;
 pub mod figures;
 pub mod files;
+mod fitting;
 pub mod html;
 mod json;
 pub mod markup;

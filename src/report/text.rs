@@ -402,12 +402,23 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
     let _ = writeln!(s);
     budget_text(&mut s, sc, out);
     let _ = writeln!(s);
-    let heading = format!("Recommended pulse ({})", super::tables::pulse_place(sc));
+    let reading = if out.fit.is_some() {
+        ", for the fit reading"
+    } else {
+        ""
+    };
+    let heading = format!(
+        "Recommended pulse ({}{reading})",
+        super::tables::pulse_place(sc)
+    );
     pulse_text(&mut s, &heading, &out.pulse, out.prep.run, sc);
     let basis = words::run_basis_text(&out.prep.run_basis);
     let _ = writeln!(s, "  run length basis: {basis}");
     let _ = writeln!(s);
     bench_text(&mut s, &out.bench, sc, &out.notes);
+    if let Some(fp) = &out.fit {
+        fit_text(&mut s, &super::fitting::fit_words(fp, sc));
+    }
     tolerance_text(&mut s, out, &u);
     let plan_notes: Vec<&Note> = out
         .notes
@@ -420,6 +431,13 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
     if !plan_notes.is_empty() {
         let _ = writeln!(s);
     }
+    if out.fit.is_some() {
+        let _ = writeln!(
+            s,
+            "For reference only: the raw and aligned readings of this pulse (the fit removes the pulse, so these biases \
+             do not apply to it)"
+        );
+    }
     error_text(&mut s, &out.estimate, &u);
     let _ = writeln!(s);
     cursors_text(&mut s, cs, &u);
@@ -429,6 +447,48 @@ pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
     };
     warnings_text(&mut s, &out.warnings, &cx);
     s
+}
+
+fn fit_text(s: &mut String, w: &super::fitting::FitWords) {
+    let _ = writeln!(s, "{}", w.heading);
+    for line in &w.summary {
+        let _ = writeln!(s, "  {line}");
+    }
+    let _ = writeln!(
+        s,
+        "  predicted 95 % intervals (Cramér–Rao bound of the fit):"
+    );
+    let wide = w
+        .intervals
+        .iter()
+        .map(|c| c[0].chars().count())
+        .max()
+        .unwrap_or(0);
+    for c in &w.intervals {
+        let pad = wide - c[0].chars().count();
+        let _ = writeln!(s, "    {}{}   {}   {}", c[0], " ".repeat(pad), c[1], c[2]);
+    }
+    let _ = writeln!(s, "  {}", w.compare_heading);
+    let mut widths: Vec<usize> = w.columns.iter().map(|c| c.chars().count()).collect();
+    for r in &w.rows {
+        for (k, c) in r.iter().enumerate() {
+            widths[k] = widths[k].max(c.chars().count());
+        }
+    }
+    let line = |cells: &[String]| {
+        cells
+            .iter()
+            .zip(&widths)
+            .map(|(c, &n)| format!("{c}{}", " ".repeat(n - c.chars().count())))
+            .collect::<Vec<_>>()
+            .join("  ")
+    };
+    let _ = writeln!(s, "    {}", line(&w.columns).trim_end());
+    for r in &w.rows {
+        let _ = writeln!(s, "    {}", line(r).trim_end());
+    }
+    let _ = writeln!(s, "  {}", w.verdict);
+    let _ = writeln!(s);
 }
 
 fn budget_text(s: &mut String, sc: &Scenario, out: &PlanOutcome) {

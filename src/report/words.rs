@@ -270,6 +270,10 @@ pub fn fit_limit_text(r: crate::notice::FitLimit) -> &'static str {
             "the network has a repeated pole, which the fit's model of distinct exponentials does not hold"
         }
         FitLimit::NonDecaying => "a mode does not decay, so no record holds all of it",
+        FitLimit::Unresolved => {
+            "no significant mode lasts 5 samples after the pulse at the planned sampling (a record split for memory \
+             is bounded by its coarse interval): raise [capture] max_points or the sample rate"
+        }
         FitLimit::Singular => {
             "the Fisher matrix is singular at the planned sampling: a mode cannot be told from the others or from the baseline"
         }

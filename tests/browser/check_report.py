@@ -57,6 +57,8 @@ SCENARIOS = [
     "tests/reference/scenarios/order50_interlaced.toml",
     # A minor fast mode: a hump in the design curve at its time scale.
     "tests/browser/minor-fast-mode.toml",
+    # Planned for the modal fit: the readings figure.
+    "scenarios/valve-positioner-fit.toml",
 ]
 # Curve colours the figures use (src/report/figures/canvas.rs): predicted, ideal.
 PREDICTED = (0x11, 0x4B, 0x63)
@@ -200,7 +202,10 @@ def check_print(name, page, url, work, headings):
 
 
 def check_figures(name, page, out, work):
-    for fig in ("stimulus", "response", "error", "design", "poles"):
+    figs = ["stimulus", "response", "error", "design", "poles"]
+    if os.path.exists(os.path.join(out, "readings.svg")):
+        figs.append("readings")
+    for fig in figs:
         svg_path = os.path.join(out, f"{fig}.svg")
         svg = open(svg_path, encoding="utf-8").read()
         size = re.search(r'<svg width="(\d+)" height="(\d+)"', svg)

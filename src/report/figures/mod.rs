@@ -16,6 +16,7 @@ mod design;
 mod error;
 mod place;
 mod poles;
+mod readings;
 mod response;
 mod stimulus;
 
@@ -23,6 +24,7 @@ pub use axis::{Axis, Scale};
 pub use design::{DesignCurve, ExtraCurve, design_curve, design_svg};
 pub use error::error_svg;
 pub use poles::poles_svg;
+pub use readings::readings_svg;
 pub use response::response_svg;
 pub use stimulus::stimulus_svg;
 
@@ -68,7 +70,7 @@ pub fn plan_figures(
         opts.design_points
     };
     let dc = design_curve(sc, out, n, progress);
-    Ok(vec![
+    let mut figs = vec![
         Figure {
             file: "stimulus.svg".into(),
             caption: "The recommended pulse with its amplitude, 50 % width, centroid and \
@@ -107,7 +109,18 @@ pub fn plan_figures(
                 opts.significant.or(Some(out.prep.significant.as_slice())),
             )?,
         },
-    ])
+    ];
+    if let Some(fp) = &out.fit {
+        figs.push(Figure {
+            file: "readings.svg".into(),
+            caption: "The three readings against pulse width at the fit plan's test time: raw and aligned \
+                      (bias + 95 % noise) and the modal fit (its 95 % Cramér–Rao interval), with the budget \
+                      and the three plans' widths."
+                .into(),
+            svg: readings_svg(fp)?,
+        });
+    }
+    Ok(figs)
 }
 
 /// The figures for `assess`: the given pulse, the responses, the error after it and the pole
