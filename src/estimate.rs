@@ -806,9 +806,12 @@ fn scan_max(e: &FreeResponse, end: f64, span: f64, floor: f64) -> ((f64, f64), f
             .filter(|(_, k)| **k)
             .map(|(l, _)| l.0)
             .fold(0.0, f64::max);
+        // Counted in f64 and bounded before the cast: a huge span × ω must not wrap.
+        let by_omega = ((b - a) * omega * 8.0).ceil().min(1e9) as usize + 2;
+        let by_share = ((b - a) / span * 2000.0).ceil().min(1e9) as usize + 2;
         let n = window_points(omega.max(f64::MIN_POSITIVE), span)
-            .min(((b - a) * omega * 8.0).ceil() as usize + 2)
-            .max(((b - a) / span * 2000.0).ceil() as usize + 2)
+            .min(by_omega)
+            .max(by_share)
             .min(200_000);
         let dt = (b - a) / (n - 1) as f64;
         let part = e.with_terms(&keep);

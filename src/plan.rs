@@ -579,6 +579,10 @@ impl Serialize for Budget {
     }
 }
 
+/// The most steps each stage of the width search takes (a bound, never reached for finite
+/// widths within the scenario domain).
+const MAX_SEARCH_STEPS: usize = 4000;
+
 /// Search for the widest pulse whose metric stays within the budget, with all narrower widths
 /// also within it (the first crossing, scanning up in steps of √2, then bisection on log
 /// width), never wider than the cap ([`width_cap`]).
@@ -601,9 +605,11 @@ pub fn widest_within(
     let (mut lo, mut hi);
     if f(start) <= budget {
         lo = start;
-        loop {
+        hi = ceiling;
+        // √2 steps: 4 000 of them span 600 decades, more than any finite pair of widths.
+        for _ in 0..MAX_SEARCH_STEPS {
             let next = lo * step;
-            if next > ceiling {
+            if next > ceiling || !next.is_finite() {
                 if f(ceiling) <= budget {
                     return Target::Capped {
                         width: ceiling,
@@ -622,13 +628,11 @@ pub fn widest_within(
         }
     } else {
         hi = start;
-        loop {
+        lo = 0.0;
+        for _ in 0..MAX_SEARCH_STEPS {
             let next = hi / step;
-            if next < floor {
-                return Target::Unreachable {
-                    width: hi,
-                    value: f(hi),
-                };
+            if next < floor || next == 0.0 {
+                break;
             }
             if f(next) <= budget {
                 lo = next;
@@ -636,9 +640,17 @@ pub fn widest_within(
             }
             hi = next;
         }
+        if lo == 0.0 {
+            return Target::Unreachable {
+                width: hi,
+                value: f(hi),
+            };
+        }
     }
     // 10⁻⁵ of the width: finer than any generator sets a width.
-    while hi / lo > 1.0 + 1e-5 {
+    let mut halvings = 0;
+    while hi / lo > 1.0 + 1e-5 && lo > 0.0 && halvings < MAX_SEARCH_STEPS {
+        halvings += 1;
         let mid = (lo * hi).sqrt();
         if f(mid) <= budget {
             lo = mid;

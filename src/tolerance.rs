@@ -233,6 +233,11 @@ pub fn analyse(
         .collect();
     let nominal_net = analyse_net(spec)?;
     let nominal = figures(&nominal_net, threshold);
+    // Spreads are relative to the nominal figures: a network without a decaying mode (an
+    // undamped tank, say) has no slowest time constant to spread, so no tolerance report.
+    if !(nominal.tau_slow.is_finite() && nominal.tau_fast.is_finite() && nominal.h0.is_finite()) {
+        return Ok(None);
+    }
 
     let use_corners = samples.is_none() && toleranced.len() <= MAX_CORNER_PARTS;
     let (method, count) = if use_corners {

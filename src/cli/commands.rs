@@ -14,6 +14,20 @@ fn load(file: &Path) -> Result<Scenario> {
     scenario::load(file).map_err(|e| InputError(e.to_string()).into())
 }
 
+/// A figure that came out NaN or infinite is refused rather than printed (JSON would show it
+/// as `null`): the scenario lies outside what the tool computes in f64.
+fn outside_f64(sc: &Scenario, path: Option<String>) -> Result<()> {
+    match path {
+        None => Ok(()),
+        Some(p) => bail!(InputError(format!(
+            "{}: network: the figures of this scenario are outside what pulseplan computes in \
+             f64 ({p} came out non-finite); bring the values nearer to each other (see the \
+             domain in DEVELOPERS.md)",
+            sc.file
+        ))),
+    }
+}
+
 fn parse_times(texts: &[String]) -> Result<Vec<f64>> {
     texts
         .iter()
@@ -60,11 +74,12 @@ pub(crate) fn plan(a: PlanArgs, quiet: bool) -> Result<Outcome> {
         }
     });
     drop(bar);
+    let cs = out.prep.estimator.cursors(&out.pulse, &times);
+    outside_f64(&sc, report::plan_non_finite(&sc, &out, &cs))?;
     if a.report || a.out.is_some() {
         let dir = a.out.unwrap_or_else(|| Path::new("out").join(&sc.name));
         write_bundle(&dir, &sc, &out, quiet)?;
     }
-    let cs = out.prep.estimator.cursors(&out.pulse, &times);
     let text = if a.common.json {
         serde_json::to_string_pretty(&report::plan_json(&sc, &out, &cs))? + "\n"
     } else {
@@ -117,6 +132,8 @@ pub(crate) fn assess(
         )));
     };
     let out = crate::pipeline::assess(&sc, &given.pulse, given.run);
+    let cs = out.prep.estimator.cursors(&out.pulse, &times);
+    outside_f64(&sc, report::assess_non_finite(&sc, &out, &cs))?;
     if let Some(dir) = bundle {
         let dir = dir.unwrap_or_else(|| Path::new("out").join(format!("{}-assess", sc.name)));
         let written = report::write_assess_bundle(&dir, &sc, &out)
@@ -130,7 +147,6 @@ pub(crate) fn assess(
             );
         }
     }
-    let cs = out.prep.estimator.cursors(&out.pulse, &times);
     let text = if common.json {
         serde_json::to_string_pretty(&report::assess_json(&sc, &out, &cs))? + "\n"
     } else {

@@ -39,7 +39,10 @@ pub fn pencil(y: &[f64], step: f64, noise: f64, forced: Option<usize>) -> Option
     let l = (n / 3).max(2);
     let rows = n - l;
     let hankel = DMatrix::from_fn(rows, l + 1, |i, j| y[i + j]);
-    let svd = hankel.svd(false, true);
+    if hankel.iter().any(|x| !x.is_finite()) {
+        return None;
+    }
+    let svd = nalgebra::SVD::try_new(hankel, false, true, f64::EPSILON, 100 * (l + 1))?;
     let vt = svd.v_t?;
     let mut idx: Vec<usize> = (0..svd.singular_values.len()).collect();
     idx.sort_by(|&a, &b| svd.singular_values[b].total_cmp(&svd.singular_values[a]));
@@ -79,7 +82,14 @@ impl Pencil {
             return Vec::new();
         };
         let a = pinv * v2;
-        a.complex_eigenvalues()
+        if a.iter().any(|x| !x.is_finite()) {
+            return Vec::new();
+        }
+        let Some(schur) = nalgebra::linalg::Schur::try_new(a, f64::EPSILON, 30 * m.max(1)) else {
+            return Vec::new();
+        };
+        schur
+            .complex_eigenvalues()
             .iter()
             .map(|z| z.ln() / self.step)
             .collect()

@@ -236,12 +236,23 @@ fn null_vectors(e: &DMatrix<f64>, a: &DMatrix<f64>) -> ReduceError {
     let w = if en > 0.0 { a.norm() / en } else { 1.0 };
     let s0 = Complex64::new(0.3, 0.953_939_2) * w;
     let m = DMatrix::from_fn(n, n, |i, j| s0 * e[(i, j)] - a[(i, j)]);
-    let svd = m.svd(true, true);
+    let unnamed = || ReduceError::Singular {
+        right: vec![0.0; n],
+        left: vec![0.0; n],
+    };
+    if m.iter().any(|x| !(x.re.is_finite() && x.im.is_finite())) {
+        return unnamed();
+    }
+    // Bounded: the culprit is only named, so an SVD that does not converge names no one.
+    let Some(svd) = nalgebra::SVD::try_new(m, true, true, f64::EPSILON, 100 * n.max(1)) else {
+        return unnamed();
+    };
     let k = (0..n)
         .min_by(|&i, &j| svd.singular_values[i].total_cmp(&svd.singular_values[j]))
         .unwrap_or(0);
-    let u = svd.u.unwrap();
-    let vt = svd.v_t.unwrap();
+    let (Some(u), Some(vt)) = (svd.u, svd.v_t) else {
+        return unnamed();
+    };
     ReduceError::Singular {
         right: (0..n).map(|j| vt[(k, j)].norm()).collect(),
         left: (0..n).map(|i| u[(i, k)].norm()).collect(),
@@ -459,18 +470,26 @@ pub(crate) fn balance(a: &mut DMatrix<f64>, b: &mut DVector<f64>, c: &mut DVecto
                     row += m[(i, j)].abs();
                 }
             }
-            if col == 0.0 || row == 0.0 {
+            // No factor for a zero or non-finite norm; the loops are bounded by the exponent
+            // range (an infinite norm would never come down).
+            if col == 0.0 || row == 0.0 || !(col + row).is_finite() {
                 continue;
             }
             let s = col + row;
-            let mut f = 1.0;
-            while col < row / 2.0 {
+            let mut f = 1.0f64;
+            let mut steps = 0;
+            while col < row / 2.0 && steps < 1100 {
                 f *= 2.0;
                 col *= 4.0;
+                steps += 1;
             }
-            while col > row * 2.0 {
+            while col > row * 2.0 && steps < 2200 {
                 f /= 2.0;
                 col /= 4.0;
+                steps += 1;
+            }
+            if !(f.is_finite() && f > 0.0) {
+                continue;
             }
             if (col + row) / f < 0.95 * s {
                 done = false;

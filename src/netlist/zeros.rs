@@ -56,7 +56,15 @@ pub(crate) fn zeros(ss: &StateSpace) -> Vec<C> {
         for (i, rw) in rows.iter().enumerate() {
             obs.set_row(i, &(rw / rw.norm().max(f64::MIN_POSITIVE)));
         }
-        let svd = obs.transpose().svd(true, false);
+        if obs.iter().any(|x| !x.is_finite()) {
+            return Vec::new();
+        }
+        // Bounded SVD: the zeros are for display; none are shown if it does not converge.
+        let Some(svd) =
+            nalgebra::SVD::try_new(obs.transpose(), true, false, f64::EPSILON, 100 * n.max(1))
+        else {
+            return Vec::new();
+        };
         let Some(u) = svd.u else {
             return Vec::new();
         };

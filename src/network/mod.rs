@@ -425,13 +425,24 @@ fn from_polynomials(numerator: &[f64], denominator: &[f64]) -> Result<Network, N
     let n = poly::degree(&den);
     let h0_ivt = if n >= 1 { remainder[0] / den[0] } else { 0.0 };
     let scale = (den[n] / den[0]).abs().powf(1.0 / n.max(1) as f64);
-    let groups = poly::cluster(&poly::roots(&den), scale);
+    let no_convergence = |what: &str| {
+        NetworkError::Invalid(format!(
+            "the {what}'s roots did not converge (companion-matrix QR iteration stopped after {} \
+             steps per root): the coefficients are too far apart in scale",
+            poly::MAX_QR_ITERATIONS
+        ))
+    };
+    let den_roots = poly::roots(&den).ok_or_else(|| no_convergence("denominator"))?;
+    let groups = poly::cluster(&den_roots, scale);
     let residues = partial::residues(&groups, den[0], &|p, count| poly::taylor_at(&num, p, count));
     let zeros = if num.len() > 1 {
-        poly::cluster(&poly::roots(&num), 1.0)
-            .into_iter()
-            .flat_map(|(z, m)| std::iter::repeat_n(z, m))
-            .collect()
+        poly::cluster(
+            &poly::roots(&num).ok_or_else(|| no_convergence("numerator"))?,
+            1.0,
+        )
+        .into_iter()
+        .flat_map(|(z, m)| std::iter::repeat_n(z, m))
+        .collect()
     } else {
         Vec::new()
     };

@@ -165,6 +165,25 @@ fn bench_json(b: &crate::bench::BenchPlan, drive: Signal) -> Value {
 
 /// JSON for `plan`.
 pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
+    serde_json::to_value(plan_doc(sc, out, cs)).unwrap_or(Value::Null)
+}
+
+/// The path of the first NaN or infinite figure `plan --json` would carry (JSON would show it
+/// as `null`), or `None` when every figure is finite.
+pub fn plan_non_finite(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Option<String> {
+    super::finite::first_non_finite(&out.bench)
+        .map(|p| format!("bench.{p}"))
+        .or_else(|| super::finite::first_non_finite(&plan_doc(sc, out, cs)))
+}
+
+/// The path of the first NaN or infinite figure `assess --json` would carry.
+pub fn assess_non_finite(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> Option<String> {
+    super::finite::first_non_finite(&out.bench)
+        .map(|p| format!("bench.{p}"))
+        .or_else(|| super::finite::first_non_finite(&assess_doc(sc, out, cs)))
+}
+
+fn plan_doc<'a>(sc: &'a Scenario, out: &'a PlanOutcome, cs: &'a [Cursor]) -> PlanDoc<'a> {
     let run = out.prep.run;
     let pulse = PulseRun {
         pulse: &out.pulse,
@@ -180,7 +199,7 @@ pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
         cs,
         &out.warnings,
     );
-    let doc = PlanDoc {
+    PlanDoc {
         common,
         tolerance: out.tolerance.as_ref().map(|report| Tolerances {
             report,
@@ -206,17 +225,20 @@ pub fn plan_json(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> Value {
             reading: sc.plan.reading,
         },
         fit_plan: out.fit.as_ref(),
-    };
-    serde_json::to_value(doc).unwrap_or(Value::Null)
+    }
 }
 
 /// JSON for `assess`.
 pub fn assess_json(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> Value {
+    serde_json::to_value(assess_doc(sc, out, cs)).unwrap_or(Value::Null)
+}
+
+fn assess_doc<'a>(sc: &'a Scenario, out: &'a AssessOutcome, cs: &'a [Cursor]) -> Common<'a> {
     let pulse = PulseRun {
         pulse: &out.pulse,
         run: out.run,
     };
-    let doc = common(
+    common(
         "assess",
         sc,
         &out.prep,
@@ -225,6 +247,5 @@ pub fn assess_json(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> Value {
         &out.bench,
         cs,
         &out.warnings,
-    );
-    serde_json::to_value(doc).unwrap_or(Value::Null)
+    )
 }

@@ -5,6 +5,7 @@ pub mod bundle;
 mod csv_out;
 pub mod figures;
 pub mod files;
+pub mod finite;
 mod fitting;
 pub mod html;
 mod json;
@@ -19,7 +20,7 @@ pub use bundle::{BundleOptions, write_assess_bundle, write_bundle, write_bundle_
 pub use csv_out::{LOG_POINTS, log_times, response_rows, write_response_csv};
 pub use files::write_atomic;
 pub use html::{assess_html, plan_html};
-pub use json::{assess_json, plan_json};
+pub use json::{assess_json, assess_non_finite, plan_json, plan_non_finite};
 pub use sheet::{generator_sheet, stimulus_csv};
 pub use text::{assess_text, plan_text};
 pub use words::with_unit;

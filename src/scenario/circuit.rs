@@ -6,6 +6,10 @@ use crate::units::{Dim, Signal};
 use serde::Deserialize;
 use toml::Spanned;
 
+/// The most parts a netlist may have (the analysis is dense: its cost grows with the cube of
+/// the node count).
+pub const MAX_PARTS: usize = 2000;
+
 /// Where the output is taken.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(untagged)]
@@ -281,6 +285,16 @@ pub(crate) fn netlist_spec(
     let parts_l = c
         .parts
         .ok_or_else(|| rd.err(Some(net_span), "network.parts", "a netlist needs its parts"))?;
+    if parts_l.get_ref().len() > MAX_PARTS {
+        return Err(rd.err(
+            Some(&parts_l.span()),
+            "network.parts",
+            format!(
+                "has {} parts; at most {MAX_PARTS} are analysed",
+                parts_l.get_ref().len()
+            ),
+        ));
+    }
     let parts = parts_l
         .get_ref()
         .iter()

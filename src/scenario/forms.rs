@@ -2,7 +2,7 @@
 //! a netlist; exactly one is given, and each becomes a `NetworkSpec`.
 
 use super::circuit;
-use super::reader::{Reader, SList, SQty, ScenarioError};
+use super::reader::{COEFFICIENT_RANGE, Reader, SList, SQty, ScenarioError};
 use crate::network::{NetworkError, NetworkSpec};
 use crate::units::{Dim, Signal};
 use serde::Deserialize;
@@ -149,8 +149,9 @@ fn polynomials(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec, Sc
             "numerator given without denominator",
         )
     })?;
-    let numerator = rd.list(num_l, "network.numerator", Dim::Number)?;
-    let denominator = rd.list(den_l, "network.denominator", Dim::Number)?;
+    let numerator = rd.list_within(num_l, "network.numerator", Dim::Number, COEFFICIENT_RANGE)?;
+    let denominator =
+        rd.list_within(den_l, "network.denominator", Dim::Number, COEFFICIENT_RANGE)?;
     if denominator.iter().all(|&c| c == 0.0) {
         return Err(rd.err(
             Some(&den_l.span()),
@@ -196,7 +197,7 @@ fn zero_pole_gain(rd: &Reader, net: &Spanned<RawNetwork>) -> Result<NetworkSpec,
         None => Vec::new(),
     };
     let gain = match &n.gain {
-        Some(g) => rd.number(g, "network.gain", Dim::Number)?,
+        Some(g) => rd.number_within(g, "network.gain", Dim::Number, COEFFICIENT_RANGE)?,
         None => 1.0,
     };
     if gain == 0.0 {

@@ -35,6 +35,13 @@ pub(crate) struct RawLimits {
     max_output: Option<SQty>,
 }
 
+/// The largest record memory a capture may state, points (a petasample: beyond any scope, and
+/// every count below it is exact in f64 and in u64).
+pub const MAX_CAPTURE_POINTS: f64 = 1e15;
+
+/// The most averages a capture may state.
+pub const MAX_AVERAGES: f64 = 1e9;
+
 fn opt(rd: &Reader, q: &Option<SQty>, key: &str, dim: Dim) -> Result<Option<f64>, ScenarioError> {
     q.as_ref().map(|q| rd.positive(q, key, dim)).transpose()
 }
@@ -140,17 +147,21 @@ pub(crate) fn bench(
                 max_averages: opt(rd, &c.max_averages, "capture.max_averages", Dim::Number)?,
             };
             if let (Some(p), Some(q)) = (cap.max_points, &c.max_points)
-                && p < 2.0
+                && !(2.0..=MAX_CAPTURE_POINTS).contains(&p)
             {
-                return Err(rd.err(Some(&q.span()), "capture.max_points", "must be at least 2"));
+                return Err(rd.err(
+                    Some(&q.span()),
+                    "capture.max_points",
+                    format!("must be between 2 and {MAX_CAPTURE_POINTS:e}"),
+                ));
             }
             if let (Some(a), Some(q)) = (cap.max_averages, &c.max_averages)
-                && a < 1.0
+                && !(1.0..=MAX_AVERAGES).contains(&a)
             {
                 return Err(rd.err(
                     Some(&q.span()),
                     "capture.max_averages",
-                    "must be at least 1",
+                    format!("must be between 1 and {MAX_AVERAGES:e}"),
                 ));
             }
             Ok(cap)

@@ -90,6 +90,11 @@ struct RawPulse {
     run: Option<SQty>,
 }
 
+/// The largest pole magnitude planned for, rad/s (time scales down to 10⁻²⁴ s; with a width
+/// ratio up to 10⁹ the widths stay above 10⁻³³ s and their powers in the error expansions
+/// finite).
+pub const MAX_POLE: f64 = 1e24;
+
 /// The largest scenario file read, bytes (a scenario of 10 000 parts is under 1 MiB).
 pub const MAX_SCENARIO_BYTES: u64 = 16 << 20;
 
@@ -182,9 +187,22 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
     let network =
         Network::from_spec(&network_spec).map_err(|e| forms::network_error(&rd, net_raw, e))?;
     let output = output_kind_of(&rd, raw.drive.as_ref(), &network_spec, output_kind)?;
+    if let Some(m) = network.modes.iter().find(|m| m.pole.norm() > MAX_POLE) {
+        return Err(rd.err(
+            Some(&net_raw.span()),
+            "network",
+            format!(
+                "has a pole of magnitude {:.3e} rad/s, beyond the {MAX_POLE:e} rad/s pulseplan \
+                 plans for (a pulse a thousand-millionth of its time scale would underflow the \
+                 error figures)",
+                m.pole.norm()
+            ),
+        ));
+    }
 
     let mut plan = planning::plan_settings(&rd, raw.plan.as_ref())?;
     planning::settle_metric(&rd, raw.plan.as_ref(), &network, &mut plan)?;
+    planning::unstable_growth(&rd, raw.plan.as_ref(), &network, &plan)?;
     if plan.reading == crate::plan::ReadingKind::Fit
         && bench.capture.as_ref().and_then(|c| c.noise).is_none()
     {
@@ -204,6 +222,7 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
         Some(p) => Some(given_pulse(&rd, p, drive)?),
         None => None,
     };
+    unstable_over_pulse(&rd, &raw, &network, &bench, pulse.as_ref())?;
     Ok(Scenario {
         file: file.to_string(),
         name: name.to_string(),
@@ -217,6 +236,68 @@ pub fn parse(file: &str, name: &str, text: &str) -> Result<Scenario, ScenarioErr
         pulse,
         bench,
     })
+}
+
+/// An unstable mode must not grow past e^[`planning::MAX_GROWTH`] across the pulse either:
+/// a generator whose least width, edge or time step is long against the growth, or a given
+/// pulse that long, is refused by name.
+fn unstable_over_pulse(
+    rd: &Reader,
+    raw: &RawScenario,
+    net: &Network,
+    bench: &Bench,
+    pulse: Option<&GivenPulse>,
+) -> Result<(), ScenarioError> {
+    let grow = net.modes.iter().map(|m| m.pole.re).fold(0.0f64, f64::max);
+    if grow <= 0.0 {
+        return Ok(());
+    }
+    let limit = planning::MAX_GROWTH / grow;
+    if let Some(g) = &bench.generator {
+        // A width rounds up to the time step and needs its edges: a few of each.
+        let longest = [
+            g.min_width,
+            g.min_edge.map(|e| 3.0 * e),
+            g.time_step.map(|t| 4.0 * t),
+        ]
+        .into_iter()
+        .flatten()
+        .fold(0.0f64, f64::max);
+        if longest > limit {
+            let span = raw.generator.as_ref().map(|g| g.span());
+            return Err(rd.err(
+                span.as_ref(),
+                "generator",
+                format!(
+                    "its least width, edges or time step ({}) is long against the network's \
+                     unstable mode (growing as e^({}·t)): beyond {} the mode grows past \
+                     e^{} and the figures overflow f64",
+                    crate::units::eng(longest, Dim::Time),
+                    crate::units::eng(grow, Dim::AngularFrequency),
+                    crate::units::eng(limit, Dim::Time),
+                    planning::MAX_GROWTH
+                ),
+            ));
+        }
+    }
+    if let Some(p) = pulse {
+        let longest = p.pulse.end().max(p.run.unwrap_or(0.0));
+        if longest > limit {
+            let span = raw.pulse.as_ref().map(|p| p.span());
+            return Err(rd.err(
+                span.as_ref(),
+                "pulse",
+                format!(
+                    "the pulse and its run ({}) are long against the network's unstable mode: \
+                     beyond {} it grows past e^{} and the figures overflow f64",
+                    crate::units::eng(longest, Dim::Time),
+                    crate::units::eng(limit, Dim::Time),
+                    planning::MAX_GROWTH
+                ),
+            ));
+        }
+    }
+    Ok(())
 }
 
 /// The output's kind: a netlist says it (a current through a part, else a voltage); the

@@ -63,6 +63,82 @@ pub(crate) fn settle_metric(
     Ok(())
 }
 
+/// The most an unstable mode may grow over the run, as a power of e (e^200 ≈ 7·10⁸⁶: its
+/// products and squares in the error figures stay finite).
+pub const MAX_GROWTH: f64 = 200.0;
+
+/// An unstable network is planned over a run of `settle_multiple` decaying time constants;
+/// a mode growing past e^[`MAX_GROWTH`] over that run would overflow the figures, so the
+/// scenario is refused naming the multiple that would fit.
+pub(crate) fn unstable_growth(
+    rd: &Reader,
+    p: Option<&RawPlan>,
+    net: &Network,
+    s: &PlanSettings,
+) -> Result<(), ScenarioError> {
+    if net.stable() {
+        return Ok(());
+    }
+    let grow = net.modes.iter().map(|m| m.pole.re).fold(0.0f64, f64::max);
+    let scale = net.tau_slow().unwrap_or_else(|| {
+        1.0 / net
+            .modes
+            .iter()
+            .map(|m| m.natural_frequency())
+            .filter(|&w| w > 0.0)
+            .fold(f64::INFINITY, f64::min)
+    });
+    // The rule-of-thumb pulse is sized on the significant time scale, which a slowly growing
+    // mode may make long against a fast-growing one.
+    let rule_end = 2.0 * net.significance(s.significance).tau / s.width_ratio;
+    let over_rule = grow * rule_end;
+    if !(over_rule.is_finite() && over_rule <= MAX_GROWTH) {
+        let span = p.and_then(|p| p.width_ratio.as_ref()).map(|q| q.span());
+        return Err(rd.err(
+            span.as_ref(),
+            if span.is_some() {
+                "plan.width_ratio"
+            } else {
+                "network"
+            },
+            format!(
+                "the rule-of-thumb pulse (its significant time scale / {}) lasts long enough for \
+                 the unstable mode to grow by e^{over_rule:.3e}, beyond the e^{MAX_GROWTH} the \
+                 figures hold in f64; a width_ratio of at least {:.4e} fits",
+                s.width_ratio,
+                s.width_ratio * over_rule / MAX_GROWTH
+            ),
+        ));
+    }
+    let growth = grow * scale * s.settle_multiple;
+    if growth.is_finite() && growth <= MAX_GROWTH {
+        return Ok(());
+    }
+    let fits = MAX_GROWTH / (grow * scale);
+    let span = p.and_then(|p| p.settle_multiple.as_ref()).map(|q| q.span());
+    let key = if span.is_some() {
+        "plan.settle_multiple"
+    } else {
+        "network"
+    };
+    Err(rd.err(
+        span.as_ref(),
+        key,
+        format!(
+            "the unstable mode grows by e^{growth:.3e} over a run of {} time scales, beyond the \
+             e^{MAX_GROWTH} the figures hold in f64; {}",
+            s.settle_multiple,
+            if fits >= 1.0 {
+                format!("a settle_multiple of at most {fits:.4} fits")
+            } else {
+                "no run of one time scale or more fits: the network grows too fast for its \
+                 slowest decay"
+                    .to_string()
+            }
+        ),
+    ))
+}
+
 /// A plain number within [lo, hi], or an error naming the key and the range.
 fn within(
     rd: &Reader,
@@ -71,7 +147,8 @@ fn within(
     (lo, hi): (f64, f64),
     what: &str,
 ) -> Result<f64, ScenarioError> {
-    let v = rd.number(q, key, Dim::Number)?;
+    // The key's own range decides (and names itself), not the general quantity range.
+    let v = rd.number_within(q, key, Dim::Number, (f64::MIN_POSITIVE, f64::MAX))?;
     if !(lo..=hi).contains(&v) {
         return Err(rd.err(
             Some(&q.span()),

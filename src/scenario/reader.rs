@@ -35,6 +35,20 @@ impl ScenarioError {
     }
 }
 
+/// Magnitudes of part values, times, areas, amplitudes, rates, poles and zeros (or 0): wide
+/// enough for femtoseconds to centuries and milliohms to teraohms with room for their
+/// products, narrow enough that products and squares of them stay finite in f64.
+pub const QUANTITY_RANGE: (f64, f64) = (1e-30, 1e30);
+
+/// Magnitudes of transfer-polynomial coefficients and of a zero-pole gain (or 0): a product of
+/// many poles may be large, but a coefficient near the f64 limits overflows when the
+/// polynomial is evaluated or rescaled.
+pub const COEFFICIENT_RANGE: (f64, f64) = (1e-200, 1e200);
+
+/// The most entries a list of time constants, coefficients, poles or zeros may have (the
+/// network order is capped at the same figure).
+pub const MAX_LIST: usize = 200;
+
 /// A quantity as written: a TOML number or a string with engineering notation.
 #[derive(Debug, Clone, Deserialize)]
 #[serde(untagged)]
@@ -100,7 +114,21 @@ impl<'a> Reader<'a> {
         }
     }
 
+    /// A value within [`QUANTITY_RANGE`] (or zero): part values, times, areas, amplitudes,
+    /// rates, poles and zeros.
     pub(crate) fn number(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
+        self.number_within(q, key, dim, QUANTITY_RANGE)
+    }
+
+    /// A finite value whose magnitude is zero or within `(lo, hi)`, else an error naming the
+    /// key and the range.
+    pub(crate) fn number_within(
+        &self,
+        q: &SQty,
+        key: &str,
+        dim: Dim,
+        range: (f64, f64),
+    ) -> Result<f64, ScenarioError> {
         let v = match q.get_ref() {
             Qty::Int(i) => *i as f64,
             Qty::Float(f) => *f,
@@ -114,7 +142,31 @@ impl<'a> Reader<'a> {
                 format!("{} is not a finite number", self.shown(q)),
             ));
         }
+        self.in_range(q, key, v, range)?;
         Ok(v)
+    }
+
+    /// Zero, or a magnitude within `(lo, hi)`: outside it f64 figures lose their digits or
+    /// overflow further down (products of part values, squares of responses).
+    fn in_range(
+        &self,
+        q: &SQty,
+        key: &str,
+        v: f64,
+        (lo, hi): (f64, f64),
+    ) -> Result<(), ScenarioError> {
+        if v != 0.0 && !(lo..=hi).contains(&v.abs()) {
+            return Err(self.err(
+                Some(&q.span()),
+                key,
+                format!(
+                    "{} is outside the range pulseplan computes in: its magnitude must be 0 or \
+                     between {lo:e} and {hi:e}",
+                    self.shown(q)
+                ),
+            ));
+        }
+        Ok(())
     }
 
     pub(crate) fn positive(&self, q: &SQty, key: &str, dim: Dim) -> Result<f64, ScenarioError> {
@@ -147,10 +199,31 @@ impl<'a> Reader<'a> {
     }
 
     pub(crate) fn list(&self, l: &SList, key: &str, dim: Dim) -> Result<Vec<f64>, ScenarioError> {
+        self.list_within(l, key, dim, QUANTITY_RANGE)
+    }
+
+    /// A list of values, each zero or of a magnitude within `range`.
+    pub(crate) fn list_within(
+        &self,
+        l: &SList,
+        key: &str,
+        dim: Dim,
+        range: (f64, f64),
+    ) -> Result<Vec<f64>, ScenarioError> {
+        if l.get_ref().len() > MAX_LIST {
+            return Err(self.err(
+                Some(&l.span()),
+                key,
+                format!(
+                    "has {} entries; at most {MAX_LIST} are read",
+                    l.get_ref().len()
+                ),
+            ));
+        }
         l.get_ref()
             .iter()
             .enumerate()
-            .map(|(i, q)| self.number(q, &format!("{key}[{i}]"), dim))
+            .map(|(i, q)| self.number_within(q, &format!("{key}[{i}]"), dim, range))
             .collect()
     }
 
@@ -159,6 +232,16 @@ impl<'a> Reader<'a> {
         l: &SList,
         key: &str,
     ) -> Result<Vec<Complex64>, ScenarioError> {
+        if l.get_ref().len() > MAX_LIST {
+            return Err(self.err(
+                Some(&l.span()),
+                key,
+                format!(
+                    "has {} entries; at most {MAX_LIST} are read",
+                    l.get_ref().len()
+                ),
+            ));
+        }
         l.get_ref()
             .iter()
             .enumerate()
@@ -173,6 +256,7 @@ impl<'a> Reader<'a> {
                 if !(z.re.is_finite() && z.im.is_finite()) {
                     return Err(self.err(Some(&q.span()), &k, "is not a finite number"));
                 }
+                self.in_range(q, &k, z.norm(), QUANTITY_RANGE)?;
                 Ok(z)
             })
             .collect()
