@@ -466,73 +466,18 @@ fn finish(
     }
     cx.modes = kept;
     let bounds = Bounds::new(&cx.modes, &bench.pulse, &sampling)?;
-    let mut intervals = Vec::new();
-    let mut weak = Vec::new();
-    for (k, m) in cx.modes.iter().enumerate() {
-        let tau = 1.0 / -m.pole.re;
-        let half = Z95 * noise_n * bounds.tau_std(k);
-        let ok = half / tau <= WEAK;
-        if !ok {
-            weak.push(*m);
-            let w = if m.pair { 2.0 } else { 1.0 };
-            warnings.push(Warning::FitModeWeak {
-                pole: m.pole,
-                relative: half / tau,
-                amplitude: w * bounds.amplitudes()[k].norm(),
-                noise: noise_n,
-            });
-        }
-        intervals.push(Interval {
-            of: IntervalOf::TimeConstant { pole: m.pole },
-            value: tau,
-            half_width: half,
-            relative: half / tau,
-            delivered: ok,
-        });
-    }
+    let (mut intervals, weak) = mode_intervals(&cx.modes, &bounds, noise_n, &mut warnings);
     order_checks(&cx.modes, &bounds, noise_n, &mut warnings);
-    let mut out_modes = left_out.clone();
+    let mut out_modes = left_out;
     out_modes.extend(unresolved);
     out_modes.extend(weak);
     let out_share = share(&out_modes, cx.normaliser());
-    if !out_modes.is_empty() {
-        if out_share > cx.budget {
-            warnings.push(Warning::FitLeftOutBias {
-                share: out_share,
-                budget: cx.budget,
-            });
-        } else {
-            notes.push(Note::FitModesLeftOut {
-                count: out_modes.len(),
-                share: out_share,
-            });
-        }
-    }
+    left_out_notices(&out_modes, out_share, cx.budget, &mut warnings, &mut notes);
     if direct != 0.0 {
         notes.push(Note::FitDirectTerm { direct });
     }
     let h_ok = out_share <= cx.budget;
-    let h0 = bounds.h_std(0.0) * Z95 * noise_n;
-    let h0_value: f64 = cx
-        .modes
-        .iter()
-        .map(|m| if m.pair { 2.0 } else { 1.0 } * m.residue.re)
-        .sum();
-    intervals.push(Interval {
-        of: IntervalOf::H0,
-        value: h0_value,
-        half_width: h0,
-        relative: h0 / cx.normaliser(),
-        delivered: h_ok,
-    });
-    let (wstd, at) = bounds.window_std(&cx.times);
-    intervals.push(Interval {
-        of: IntervalOf::WindowWidest { at },
-        value: cx.prep.estimator.ideal().at(at),
-        half_width: Z95 * noise_n * wstd,
-        relative: Z95 * noise_n * wstd / cx.normaliser(),
-        delivered: h_ok,
-    });
+    intervals.extend(h_intervals(&cx, &bounds, noise_n, h_ok));
     let predicted = cx.quantity(&bounds, &cx.modes) / (n as f64).sqrt();
     let delivered = match cx.s.fit_quantity {
         FitQuantity::TimeConstants => intervals.iter().all(|i| i.delivered),
@@ -588,6 +533,88 @@ fn finish(
         warnings,
         notes,
     })
+}
+
+/// Each mode's time-constant interval at the planned noise; modes too weak to deliver theirs
+/// are returned (and warned about).
+fn mode_intervals(
+    modes: &[FitMode],
+    bounds: &Bounds,
+    noise_n: f64,
+    warnings: &mut Vec<Warning>,
+) -> (Vec<Interval>, Vec<FitMode>) {
+    let mut intervals = Vec::new();
+    let mut weak = Vec::new();
+    for (k, m) in modes.iter().enumerate() {
+        let tau = 1.0 / -m.pole.re;
+        let half = Z95 * noise_n * bounds.tau_std(k);
+        let ok = half / tau <= WEAK;
+        if !ok {
+            weak.push(*m);
+            let w = if m.pair { 2.0 } else { 1.0 };
+            warnings.push(Warning::FitModeWeak {
+                pole: m.pole,
+                relative: half / tau,
+                amplitude: w * bounds.amplitudes()[k].norm(),
+                noise: noise_n,
+            });
+        }
+        intervals.push(Interval {
+            of: IntervalOf::TimeConstant { pole: m.pole },
+            value: tau,
+            half_width: half,
+            relative: half / tau,
+            delivered: ok,
+        });
+    }
+    (intervals, weak)
+}
+
+/// The warning (or note) for modes the fit leaves out, by the share of h they carry.
+fn left_out_notices(
+    out: &[FitMode],
+    share: f64,
+    budget: f64,
+    warnings: &mut Vec<Warning>,
+    notes: &mut Vec<Note>,
+) {
+    if out.is_empty() {
+        return;
+    }
+    if share > budget {
+        warnings.push(Warning::FitLeftOutBias { share, budget });
+    } else {
+        notes.push(Note::FitModesLeftOut {
+            count: out.len(),
+            share,
+        });
+    }
+}
+
+/// The intervals of h(0⁺) and of h(t) where it is widest over the window.
+fn h_intervals(cx: &Cx, bounds: &Bounds, noise_n: f64, delivered: bool) -> [Interval; 2] {
+    let h0 = bounds.h_std(0.0) * Z95 * noise_n;
+    let h0_value: f64 = cx
+        .modes
+        .iter()
+        .map(|m| if m.pair { 2.0 } else { 1.0 } * m.residue.re)
+        .sum();
+    let first = Interval {
+        of: IntervalOf::H0,
+        value: h0_value,
+        half_width: h0,
+        relative: h0 / cx.normaliser(),
+        delivered,
+    };
+    let (wstd, at) = bounds.window_std(&cx.times);
+    let second = Interval {
+        of: IntervalOf::WindowWidest { at },
+        value: cx.prep.estimator.ideal().at(at),
+        half_width: Z95 * noise_n * wstd,
+        relative: Z95 * noise_n * wstd / cx.normaliser(),
+        delivered,
+    };
+    [first, second]
 }
 
 /// Pairs of poles closer than the sum of their 95 % half-widths.
