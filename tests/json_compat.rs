@@ -43,8 +43,14 @@ const REL: f64 = 1e-7;
 
 /// Walk the old JSON: every key must exist in the new one with the same type; with `values`,
 /// numbers must agree to 1e-12 relative and strings and booleans exactly.
+/// A figure that is not available: `null`, or the "n/a: reason" string the JSON now writes
+/// where a figure cannot be given (the first-order estimate outside its validity).
+fn absent(v: &Value) -> bool {
+    v.is_null() || v.as_str().is_some_and(|s| s.starts_with("n/a"))
+}
+
 fn compare(old: &Value, new: &Value, path: &str, values: bool, out: &mut Vec<String>) {
-    let null_ok = old.is_null() || new.is_null();
+    let null_ok = absent(old) || absent(new);
     if (values || !null_ok) && kind(old) != kind(new) {
         out.push(format!("{path}: was {} now {}", kind(old), kind(new)));
         return;

@@ -58,38 +58,6 @@ const NULL_BY_DESIGN: &[(&str, &str)] = &[
         "bench.capture.split",
         "the record fits the memory in one piece",
     ),
-    (
-        "error.first_order.t0_rel",
-        "outside the first-order estimate's validity",
-    ),
-    (
-        "error.first_order.t0_remainder",
-        "outside the first-order estimate's validity",
-    ),
-    (
-        "error.first_order.t0_aligned_rel",
-        "outside the first-order estimate's validity",
-    ),
-    (
-        "error.first_order.t0_aligned_remainder",
-        "outside the first-order estimate's validity",
-    ),
-    (
-        "plan.rule_of_thumb.error.first_order.t0_rel",
-        "as error.first_order",
-    ),
-    (
-        "plan.rule_of_thumb.error.first_order.t0_remainder",
-        "as error.first_order",
-    ),
-    (
-        "plan.rule_of_thumb.error.first_order.t0_aligned_rel",
-        "as error.first_order",
-    ),
-    (
-        "plan.rule_of_thumb.error.first_order.t0_aligned_remainder",
-        "as error.first_order",
-    ),
 ];
 
 fn toml_files(dir: &Path) -> Vec<PathBuf> {

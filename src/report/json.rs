@@ -65,6 +65,39 @@ fn worded_warnings<'a>(ws: &'a [Warning], cx: &Context) -> Vec<WordedWarning<'a>
         .collect()
 }
 
+/// Why a bound on the first-order estimate's left-out terms is not given.
+const REMAINDER_NA: &str =
+    "n/a: the bound on the terms the estimate leaves out is not finite for this pulse";
+
+/// The error estimate with every first-order figure outside its validity written as "n/a" and
+/// the reason, where serde would print `null`.
+fn error_with_na<S: serde::Serializer>(e: &&ErrorEstimate, s: S) -> Result<S::Ok, S::Error> {
+    fn patch(v: &mut Value) {
+        match v {
+            Value::Object(m) => {
+                if let Some(Value::Object(fo)) = m.get_mut("first_order") {
+                    for (key, why) in [
+                        ("t0_rel", words::FIRST_ORDER_NA),
+                        ("t0_aligned_rel", words::FIRST_ORDER_NA),
+                        ("t0_remainder", REMAINDER_NA),
+                        ("t0_aligned_remainder", REMAINDER_NA),
+                    ] {
+                        if fo.get(key).is_some_and(Value::is_null) {
+                            fo.insert(key.into(), Value::String(why.into()));
+                        }
+                    }
+                }
+                m.values_mut().for_each(patch);
+            }
+            Value::Array(a) => a.iter_mut().for_each(patch),
+            _ => {}
+        }
+    }
+    let mut v = serde_json::to_value(e).map_err(serde::ser::Error::custom)?;
+    patch(&mut v);
+    v.serialize(s)
+}
+
 fn worded_notes(ns: &[Note], drive: Signal) -> Vec<String> {
     ns.iter().map(|n| words::note_text(n, drive)).collect()
 }
@@ -72,6 +105,7 @@ fn worded_notes(ns: &[Note], drive: Signal) -> Vec<String> {
 #[derive(Serialize)]
 struct RuleOfThumb<'a> {
     pulse: PulseRun<'a>,
+    #[serde(serialize_with = "error_with_na")]
     error: &'a ErrorEstimate,
 }
 
@@ -99,6 +133,7 @@ struct Common<'a> {
     scenario: ScenarioEcho<'a>,
     network: &'a NetworkFacts,
     pulse: PulseRun<'a>,
+    #[serde(serialize_with = "error_with_na")]
     error: &'a ErrorEstimate,
     bench: Value,
     at: &'a [Cursor],
