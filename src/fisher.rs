@@ -41,7 +41,8 @@ pub struct FitMode {
 }
 
 impl FitMode {
-    fn weight(&self) -> f64 {
+    /// Its weight in h: 2 for a conjugate pair (counted by its upper member), 1 for a real pole.
+    pub fn weight(&self) -> f64 {
         if self.pair { 2.0 } else { 1.0 }
     }
 

@@ -187,6 +187,7 @@ struct Cx<'a> {
 }
 
 /// One width tried.
+#[derive(Clone)]
 struct Candidate {
     width: f64,
     bench: BenchPlan,
@@ -341,7 +342,7 @@ fn model_modes(prep: &Prepared, net_modes: &[FitMode]) -> (Vec<FitMode>, Vec<Fit
 fn share(modes: &[FitMode], normaliser: f64) -> f64 {
     modes
         .iter()
-        .map(|m| if m.pair { 2.0 } else { 1.0 } * m.residue.norm())
+        .map(|m| m.weight() * m.residue.norm())
         .sum::<f64>()
         / normaliser
 }
@@ -429,7 +430,7 @@ pub fn design(
             Unbounded::Singular
         });
     }
-    let chosen = refine(&cx, &grid, best, cx.candidate(grid[best]));
+    let chosen = refine(&cx, &grid, best, tried[best].clone());
     finish(cx, chosen, &tried, left_out, net.direct, reference)
 }
 
@@ -551,11 +552,10 @@ fn mode_intervals(
         let ok = half / tau <= WEAK;
         if !ok {
             weak.push(*m);
-            let w = if m.pair { 2.0 } else { 1.0 };
             warnings.push(Warning::FitModeWeak {
                 pole: m.pole,
                 relative: half / tau,
-                amplitude: w * bounds.amplitudes()[k].norm(),
+                amplitude: m.weight() * bounds.amplitudes()[k].norm(),
                 noise: noise_n,
             });
         }
@@ -594,11 +594,7 @@ fn left_out_notices(
 /// The intervals of h(0⁺) and of h(t) where it is widest over the window.
 fn h_intervals(cx: &Cx, bounds: &Bounds, noise_n: f64, delivered: bool) -> [Interval; 2] {
     let h0 = bounds.h_std(0.0) * Z95 * noise_n;
-    let h0_value: f64 = cx
-        .modes
-        .iter()
-        .map(|m| if m.pair { 2.0 } else { 1.0 } * m.residue.re)
-        .sum();
+    let h0_value: f64 = cx.modes.iter().map(|m| m.weight() * m.residue.re).sum();
     let first = Interval {
         of: IntervalOf::H0,
         value: h0_value,

@@ -33,6 +33,16 @@ fn plan_json(path: &std::path::Path) -> (Value, Output) {
     (v, o)
 }
 
+/// The warnings' codes.
+fn codes(v: &Value) -> Vec<&str> {
+    v["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|w| w["code"].as_str())
+        .collect()
+}
+
 /// One pole at −1000 rad/s (τ = 1 ms) with unit DC gain, read by the fit (an invented demo).
 const ONE_POLE: &str = "[network]\nnumerator = [1000]\ndenominator = [1, 1000]\n\
 [plan]\nreading = \"fit\"\ntarget_error = \"0.1 %\"\n[capture]\nnoise = \"1 mV\"\n";
@@ -93,12 +103,7 @@ fn max_test_time_bounds_the_averages() {
         Some(1),
         "an unreachable budget is a warning to act on"
     );
-    let codes: Vec<&str> = v["warnings"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .filter_map(|w| w["code"].as_str())
-        .collect();
+    let codes = codes(&v);
     assert!(codes.contains(&"fit-budget-unreachable"), "{codes:?}");
 }
 
@@ -137,12 +142,7 @@ fn networks_the_fit_cannot_bound_keep_the_raw_plan_and_say_why() {
             format!("[network]\n{net}\n[plan]\nreading = \"fit\"\n[capture]\nnoise = \"1 mV\"\n");
         let (v, _) = plan_json(&scenario(name, &text));
         assert!(v.get("fit_plan").is_none(), "{name}");
-        let codes: Vec<&str> = v["warnings"]
-            .as_array()
-            .unwrap()
-            .iter()
-            .filter_map(|w| w["code"].as_str())
-            .collect();
+        let codes = codes(&v);
         assert!(codes.contains(&"fit-unavailable"), "{name}: {codes:?}");
     }
 }

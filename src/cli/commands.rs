@@ -104,15 +104,19 @@ fn write_bundle(
     let written = report::write_bundle_with(dir, sc, out, opts)
         .with_context(|| format!("cannot write the report bundle in {}", dir.display()))?;
     drop(bar);
+    say_written(dir, written.len(), quiet);
+    Ok(())
+}
+
+/// The line that says where a bundle went.
+fn say_written(dir: &Path, files: usize, quiet: bool) {
     if !quiet {
         eprintln!(
-            "wrote {} files to {} (open {})",
-            written.len(),
+            "wrote {files} files to {} (open {})",
             dir.display(),
             dir.join("report.html").display()
         );
     }
-    Ok(())
 }
 
 /// `pulseplan assess`; `bundle` is Some when a report bundle is asked for (with its folder,
@@ -138,14 +142,7 @@ pub(crate) fn assess(
         let dir = dir.unwrap_or_else(|| Path::new("out").join(format!("{}-assess", sc.name)));
         let written = report::write_assess_bundle(&dir, &sc, &out)
             .with_context(|| format!("cannot write the report bundle in {}", dir.display()))?;
-        if !quiet {
-            eprintln!(
-                "wrote {} files to {} (open {})",
-                written.len(),
-                dir.display(),
-                dir.join("report.html").display()
-            );
-        }
+        say_written(&dir, written.len(), quiet);
     }
     let text = if common.json {
         serde_json::to_string_pretty(&report::assess_json(&sc, &out, &cs))? + "\n"

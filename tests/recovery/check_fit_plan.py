@@ -34,22 +34,10 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parents[1]
 sys.path.insert(0, str(HERE))
 import gen_capture as G  # noqa: E402
+from check_recovery import Checker  # noqa: E402  (the same pass/fail printer)
 
 BIN = Path(os.environ.get("PULSEPLAN_BIN", ROOT / "target" / "release" / "pulseplan"))
 Z95 = 1.959963984540054
-
-
-class Checker:
-    def __init__(self, quiet):
-        self.quiet, self.passed, self.failed = quiet, 0, 0
-
-    def check(self, name, ok, detail=""):
-        if ok:
-            self.passed += 1
-        else:
-            self.failed += 1
-        if not ok or not self.quiet:
-            print("%s  %s  %s" % ("ok  " if ok else "FAIL", name, detail))
 
 
 def fit_copy(src, dst, noise):
