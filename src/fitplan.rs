@@ -484,15 +484,15 @@ fn finish(
         FitQuantity::TimeConstants => intervals.iter().all(|i| i.delivered),
         _ => h_ok,
     };
+    let test_time = n as f64 * period_of(&bench);
     if !met {
         warnings.push(Warning::FitBudgetUnreachable {
             best: predicted,
             budget: cx.budget,
             averages: n,
-            test_time: n as f64 * period_of(&bench),
+            test_time,
         });
     }
-    let test_time = n as f64 * period_of(&bench);
     let fit_row = PlanRow {
         plan: Which::Fit,
         reading: ReadingKind::Fit,
