@@ -128,33 +128,27 @@ fn figures(net: &Network, threshold: f64) -> Figures {
     }
 }
 
-/// The part's main value scaled by a factor (R, C, L values; coupling k; source gains).
-fn scaled(part: &Part, factor: f64) -> Part {
-    let mut p = part.clone();
-    match &mut p.kind {
-        PartKind::Resistor { value, .. }
-        | PartKind::Capacitor { value, .. }
-        | PartKind::Inductor { value, .. } => *value *= factor,
-        PartKind::Coupling { k, .. } => *k = (*k * factor).clamp(-0.999_999, 0.999_999),
-        PartKind::Vcvs { gain, .. }
-        | PartKind::Vccs { gain, .. }
-        | PartKind::Cccs { gain, .. }
-        | PartKind::Ccvs { gain, .. } => *gain *= factor,
-        PartKind::OpAmp { gain, .. } => {
-            if let Some(g) = gain {
-                *g *= factor;
-            }
-        }
+/// A part's main value scaled by a factor (R, C, L values; coupling k, kept inside ±1;
+/// source gains; an op-amp's open-loop gain).
+fn scaled(part: &Part, value: f64, factor: f64) -> f64 {
+    match part.kind {
+        PartKind::Coupling { .. } => (value * factor).clamp(-0.999_999, 0.999_999),
+        _ => value * factor,
     }
-    p
 }
 
-fn with_factors(spec: &NetlistSpec, toleranced: &[usize], factors: &[f64]) -> NetlistSpec {
-    let mut s = spec.clone();
+/// The main values of every part with the toleranced ones scaled by `factors`.
+fn values_with(
+    spec: &NetlistSpec,
+    nominal: &[f64],
+    toleranced: &[usize],
+    factors: &[f64],
+) -> Vec<f64> {
+    let mut v = nominal.to_vec();
     for (&i, &f) in toleranced.iter().zip(factors) {
-        s.parts[i] = scaled(&spec.parts[i], f);
+        v[i] = scaled(&spec.parts[i], nominal[i], f);
     }
-    s
+    v
 }
 
 /// SplitMix64 (Steele, Lea & Flood 2014): a small, well-mixed generator; one stream per
@@ -260,10 +254,14 @@ pub fn analyse(
             .collect()
     };
     let validated = netlist::Validated::new(spec)?;
+    let base = netlist::main_values(spec);
+    let values_of = |case: usize| values_with(spec, &base, &toleranced, &factors_of(case));
     let done = std::sync::atomic::AtomicUsize::new(0);
     let results: Vec<Option<(Figures, usize)>> = parallel_map(count, &|case| {
-        let variant = with_factors(spec, &toleranced, &factors_of(case));
-        let net = validated.analyse(&variant).map(Network::from_circuit).ok();
+        let net = validated
+            .analyse_values(&values_of(case))
+            .map(Network::from_circuit)
+            .ok();
         let n = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
         progress(n);
         net.map(|net| (figures(&net, threshold), case))
@@ -294,7 +292,7 @@ pub fn analyse(
         }
     }
     let net_of = |case: Option<(f64, usize)>| -> Network {
-        case.and_then(|(_, c)| analyse_net(&with_factors(spec, &toleranced, &factors_of(c))).ok())
+        case.and_then(|(_, c)| analyse_net(&netlist::with_values(spec, &values_of(c))).ok())
             .unwrap_or_else(|| nominal_net.clone())
     };
     let fastest = net_of(fastest_case);
@@ -313,8 +311,7 @@ pub fn analyse(
             parallel_map(toleranced.len(), &|k| {
                 let i = toleranced[k];
                 let fig = |f: f64| {
-                    let mut s = spec.clone();
-                    s.parts[i] = scaled(&spec.parts[i], f);
+                    let s = netlist::with_values(spec, &values_with(spec, &base, &[i], &[f]));
                     analyse_net(&s).ok().map(|n| figures(&n, threshold))
                 };
                 let (up, down) = (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP));

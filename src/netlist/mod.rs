@@ -61,6 +61,7 @@ mod label;
 mod mna;
 mod modes;
 mod polish;
+mod project;
 mod reduce;
 mod spec;
 mod symmetric;
@@ -145,16 +146,25 @@ fn general(
 /// in their last digits, not poles).
 pub struct Validated {
     circuit: check::Circuit,
-    parts: usize,
+    spec: NetlistSpec,
+    stamps: mna::Stamps,
+    /// The nominal split, kept for variants (general circuits of moderate size whose nominal
+    /// reduction is a single index-1 step; `None` otherwise).
+    projection: Option<project::Projection>,
 }
 
 impl Validated {
     /// Validate the netlist (every diagnostic of [`analyse`]).
     pub fn new(spec: &NetlistSpec) -> Result<Validated, NetlistError> {
         dense::sequential_by_default();
+        let circuit = check::validate(spec)?;
+        let stamps = mna::Stamps::new(spec, &circuit);
+        let projection = projection_of(spec, &circuit, &stamps);
         Ok(Validated {
-            circuit: check::validate(spec)?,
-            parts: spec.parts.len(),
+            circuit,
+            spec: spec.clone(),
+            stamps,
+            projection,
         })
     }
 
@@ -162,7 +172,7 @@ impl Validated {
     /// other values (each still valid: positive R, C, L; |k| < 1). A variant whose part
     /// count differs is validated afresh.
     pub fn analyse(&self, variant: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
-        if variant.parts.len() != self.parts {
+        if variant.parts.len() != self.spec.parts.len() {
             return analyse(variant);
         }
         let f = match symmetric::analyse(variant, &self.circuit, false) {
@@ -174,6 +184,78 @@ impl Validated {
         }
         Ok(f)
     }
+
+    /// Analyse the variant whose parts take the main values `values` (one per part, as
+    /// [`main_values`] lists them; each still valid). Variants that keep the nominal's
+    /// structure are projected on its split (no netlist is built and no SVD run); the
+    /// others are analysed as [`Validated::analyse`] does.
+    pub fn analyse_values(&self, values: &[f64]) -> Result<CircuitFunction, NetlistError> {
+        if let Some(p) = &self.projection
+            && values.len() == self.spec.parts.len()
+        {
+            let n = self.stamps.order();
+            let (mut e, mut a) = (
+                nalgebra::DMatrix::zeros(n, n),
+                nalgebra::DMatrix::zeros(n, n),
+            );
+            self.stamps.fill(values, &mut e, &mut a);
+            let (b, c) = self.stamps.io();
+            if let Some(ss) = p.reduce(&e, &a, b, c)
+                && let Ok(f) = modes::function(&ss, Vec::new(), false)
+                && f.modes.iter().any(|m| m.pole.norm() != 0.0)
+            {
+                return Ok(f);
+            }
+        }
+        self.analyse(&with_values(&self.spec, values))
+    }
+}
+
+/// The nominal split of a general circuit, when its reduction is one index-1 step (the
+/// order is the rank of E and nothing is improper); `None` for symmetric RC circuits (their
+/// own path is cheaper), large ones, or structures the projection cannot hold.
+fn projection_of(
+    spec: &NetlistSpec,
+    circuit: &check::Circuit,
+    stamps: &mna::Stamps,
+) -> Option<project::Projection> {
+    if symmetric::analyse(spec, circuit, false).is_some() {
+        return None;
+    }
+    let desc = stamps.descriptor(&main_values(spec));
+    let projection = project::Projection::new(&desc)?;
+    let reduced = reduce::reduce(&desc).ok()?;
+    (reduced.ss.order() == projection.order() && reduced.improper.is_empty()).then_some(projection)
+}
+
+/// The main value of every part (the one a tolerance scales: R, C or L, a coupling's k, a
+/// source's gain, an op-amp's open-loop gain; `NaN` for an op-amp without one).
+pub fn main_values(spec: &NetlistSpec) -> Vec<f64> {
+    mna::main_values(spec)
+}
+
+/// A copy of the netlist whose parts take the main values `values` (an op-amp without an
+/// open-loop gain keeps none).
+pub fn with_values(spec: &NetlistSpec, values: &[f64]) -> NetlistSpec {
+    let mut s = spec.clone();
+    for (p, &v) in s.parts.iter_mut().zip(values) {
+        match &mut p.kind {
+            PartKind::Resistor { value, .. }
+            | PartKind::Capacitor { value, .. }
+            | PartKind::Inductor { value, .. } => *value = v,
+            PartKind::Coupling { k, .. } => *k = v,
+            PartKind::Vcvs { gain, .. }
+            | PartKind::Vccs { gain, .. }
+            | PartKind::Cccs { gain, .. }
+            | PartKind::Ccvs { gain, .. } => *gain = v,
+            PartKind::OpAmp { gain, .. } => {
+                if let Some(g) = gain {
+                    *g = v;
+                }
+            }
+        }
+    }
+    s
 }
 
 fn reduce_spec(spec: &NetlistSpec) -> Result<(reduce::Reduced, mna::Descriptor), NetlistError> {

@@ -18,12 +18,13 @@ type C = Complex64;
 
 const ZERO: C = C::new(0.0, 0.0);
 
-/// Analyse a (balanced) state space into its network function; the zeros (for display) only
-/// when `with_zeros`.
+/// Analyse a (balanced) state space into its network function. `full`: the zeros (for
+/// display) too, and faer's eigen-decomposition at every order; a tolerance case (`false`)
+/// skips the zeros and, at small orders, takes the faster route of [`eigen_small`].
 pub(crate) fn function(
     ss: &StateSpace,
     improper: Vec<f64>,
-    with_zeros: bool,
+    full: bool,
 ) -> Result<CircuitFunction, String> {
     let n = ss.order();
     // h(0⁺) = C·B; a sum that cancels to rounding level (relative degree ≥ 2) is exactly 0.
@@ -34,13 +35,17 @@ pub(crate) fn function(
     } else {
         h0
     };
-    let mut modes = if n == 0 { Vec::new() } else { modes_of(ss)? };
+    let mut modes = if n == 0 {
+        Vec::new()
+    } else {
+        modes_of(ss, full)?
+    };
     sort_modes(&mut modes);
     Ok(CircuitFunction {
         modes,
         direct: ss.d,
         improper,
-        zeros: if with_zeros {
+        zeros: if full {
             super::zeros::zeros(ss)
         } else {
             Vec::new()
@@ -101,9 +106,101 @@ fn eigen(a: &DMatrix<f64>) -> Result<Eigen, String> {
     })
 }
 
-fn modes_of(ss: &StateSpace) -> Result<Vec<CircuitMode>, String> {
+/// Orders up to which a tolerance case takes [`eigen_small`]: there faer's set-up costs
+/// several times the work itself.
+const SMALL_ORDER: usize = 16;
+/// Sweep limit of nalgebra's Francis iteration (per eigenvalue, as LAPACK allows 30).
+const SCHUR_SWEEPS: usize = 30;
+
+/// The eigenvalues of a small matrix from nalgebra's real Schur form (Francis double-shift
+/// QR, bounded), the right eigenvectors by two steps of inverse iteration at each computed
+/// eigenvalue (LU of A − λI), V⁻¹ by LU. `None` when any step fails; the caller then takes
+/// faer's decomposition.
+fn eigen_small(a: &DMatrix<f64>) -> Option<Eigen> {
+    let n = a.nrows();
+    let schur = nalgebra::linalg::Schur::try_new(a.clone(), f64::EPSILON, SCHUR_SWEEPS * n)?;
+    let t = schur.unpack().1;
+    let mut lam = Vec::with_capacity(n);
+    let mut conj_of = vec![None; n];
+    let mut k = 0;
+    while k < n {
+        if k + 1 < n && t[(k + 1, k)] != 0.0 {
+            let (p, q, r, s) = (t[(k, k)], t[(k, k + 1)], t[(k + 1, k)], t[(k + 1, k + 1)]);
+            let half = 0.5 * (p - s);
+            let disc = half * half + q * r;
+            let mid = 0.5 * (p + s);
+            if disc < 0.0 {
+                let im = (-disc).sqrt();
+                lam.push(C::new(mid, im));
+                lam.push(C::new(mid, -im));
+                conj_of[k + 1] = Some(k);
+            } else {
+                let root = disc.sqrt();
+                lam.push(C::new(mid + root.copysign(half), 0.0));
+                lam.push(C::new(mid - root.copysign(half), 0.0));
+            }
+            k += 2;
+        } else {
+            lam.push(C::new(t[(k, k)], 0.0));
+            k += 1;
+        }
+    }
+    let anorm = a.norm();
+    let mut v = DMatrix::<C>::zeros(n, n);
+    for k in 0..n {
+        let col = match conj_of[k] {
+            Some(u) => v.column(u).map(|x| x.conj()),
+            None => inverse_iteration(a, lam[k], anorm)?,
+        };
+        v.set_column(k, &col);
+    }
+    let vinv = v.clone().lu().try_inverse()?;
+    let to = |m: &DMatrix<C>| Mat::<c64>::from_fn(n, n, |i, j| m[(i, j)]);
+    let ok = v.iter().chain(vinv.iter()).all(|x| x.is_finite());
+    ok.then(|| Eigen {
+        lam,
+        v: to(&v),
+        vinv: to(&vinv),
+        conj_of,
+    })
+}
+
+/// A unit right eigenvector of `a` at the computed eigenvalue `l`: two solves with A − λI
+/// (shifted off λ by ε‖A‖ should the LU meet an exact zero pivot).
+fn inverse_iteration(a: &DMatrix<f64>, l: C, anorm: f64) -> Option<nalgebra::DVector<C>> {
+    let n = a.nrows();
+    let shifted = |d: C| {
+        DMatrix::<C>::from_fn(n, n, |i, j| {
+            C::new(a[(i, j)], 0.0) - if i == j { d } else { ZERO }
+        })
+    };
+    let mut x = nalgebra::DVector::<C>::from_fn(n, |i, _| C::new(1.0 + 0.618_034 * i as f64, 0.0));
+    let lu = shifted(l).lu();
+    let lu = if lu.is_invertible() {
+        lu
+    } else {
+        shifted(l + C::new(f64::EPSILON * anorm, f64::EPSILON * anorm)).lu()
+    };
+    for _ in 0..2 {
+        x = lu.solve(&x)?;
+        let norm = x.norm();
+        if !(norm.is_finite() && norm > 0.0) {
+            return None;
+        }
+        x /= C::new(norm, 0.0);
+    }
+    Some(x)
+}
+
+fn modes_of(ss: &StateSpace, full: bool) -> Result<Vec<CircuitMode>, String> {
     let n = ss.order();
-    let mut e = eigen(&ss.a)?;
+    let small = (!full && n <= SMALL_ORDER)
+        .then(|| eigen_small(&ss.a))
+        .flatten();
+    let mut e = match small {
+        Some(e) => e,
+        None => eigen(&ss.a)?,
+    };
     let anorm = ss.a.norm();
     refine_slow(ss, &mut e, anorm);
     let bt: Vec<C> = (0..n)

@@ -43,7 +43,7 @@ const RANK_TOL: f64 = 1e-12;
 
 /// Full SVD `m = U·diag(σ)·Vᵀ` with U, V square orthogonal; returns (U, σ (rank entries,
 /// descending), V). The rank counts σᵢ > `tol`.
-fn full_svd(m: &DMatrix<f64>, tol: f64) -> (DMatrix<f64>, Vec<f64>, DMatrix<f64>) {
+pub(super) fn full_svd(m: &DMatrix<f64>, tol: f64) -> (DMatrix<f64>, Vec<f64>, DMatrix<f64>) {
     let (rows, cols) = m.shape();
     if rows == 0 || cols == 0 {
         return (
@@ -65,7 +65,7 @@ fn full_svd(m: &DMatrix<f64>, tol: f64) -> (DMatrix<f64>, Vec<f64>, DMatrix<f64>
     (u, sigma, v)
 }
 
-fn pow2(x: f64) -> f64 {
+pub(super) fn pow2(x: f64) -> f64 {
     if x > 0.0 && x.is_finite() {
         2f64.powi(-(x.log2().round() as i32))
     } else {
@@ -90,20 +90,21 @@ struct Semi {
     dabs: Vec<f64>,
 }
 
-fn select(m: &DMatrix<f64>, rows: &[usize], cols: &[usize]) -> DMatrix<f64> {
+pub(super) fn select(m: &DMatrix<f64>, rows: &[usize], cols: &[usize]) -> DMatrix<f64> {
     DMatrix::from_fn(rows.len(), cols.len(), |i, j| m[(rows[i], cols[j])])
 }
 
-/// Scale, split E by SVD block by block, and return the semi-explicit form together with the
-/// scaled descriptor (for diagnostics).
-fn split(desc: &Descriptor) -> (Semi, DMatrix<f64>, DMatrix<f64>) {
-    let n = desc.e.nrows();
-    let (mut e, mut a) = (desc.e.clone(), desc.a.clone());
-    let mut b = desc.b.clone();
-    let mut c = desc.c.clone();
-    // Equilibrate by powers of two, columns then rows (twice), on |A| + ω|E| with ω a typical
-    // frequency (the geometric-mean ratio of A's and E's entries), so that stores and
-    // resistive paths weigh alike.
+/// Equilibrate the pencil by powers of two, columns then rows (twice), on |A| + ω|E| with ω a
+/// typical frequency (the geometric-mean ratio of A's and E's entries), so that stores and
+/// resistive paths weigh alike. Returns the column and row scales applied (exact powers of
+/// two): `E ← diag(rows)·E·diag(cols)`, likewise A, `B ← diag(rows)·B`, `C ← diag(cols)·C`.
+pub(super) fn equilibrate_pencil(
+    e: &mut DMatrix<f64>,
+    a: &mut DMatrix<f64>,
+    b: &mut DVector<f64>,
+    c: &mut DVector<f64>,
+) -> (Vec<f64>, Vec<f64>) {
+    let n = e.nrows();
     let logmean = |m: &DMatrix<f64>| {
         let (sum, cnt) = m
             .iter()
@@ -115,10 +116,11 @@ fn split(desc: &Descriptor) -> (Semi, DMatrix<f64>, DMatrix<f64>) {
             None
         }
     };
-    let omega = match (logmean(&a), logmean(&e)) {
+    let omega = match (logmean(a), logmean(e)) {
         (Some(la), Some(le)) => (la - le).exp(),
         _ => 1.0,
     };
+    let (mut cols, mut rows) = (vec![1.0; n], vec![1.0; n]);
     for _ in 0..2 {
         for j in 0..n {
             let mx = (0..n).fold(0.0f64, |m, i| {
@@ -128,6 +130,7 @@ fn split(desc: &Descriptor) -> (Semi, DMatrix<f64>, DMatrix<f64>) {
             e.column_mut(j).scale_mut(f);
             a.column_mut(j).scale_mut(f);
             c[j] *= f;
+            cols[j] *= f;
         }
         for i in 0..n {
             let mx = (0..n).fold(0.0f64, |m, j| {
@@ -137,11 +140,20 @@ fn split(desc: &Descriptor) -> (Semi, DMatrix<f64>, DMatrix<f64>) {
             e.row_mut(i).scale_mut(f);
             a.row_mut(i).scale_mut(f);
             b[i] *= f;
+            rows[i] *= f;
         }
     }
-    let (e_scaled, a_scaled) = (e.clone(), a.clone());
+    (cols, rows)
+}
 
-    // Connected components of E's nonzero pattern (rows 0..n, columns n..2n).
+/// Rows and columns of one connected block of E's nonzero pattern.
+pub(super) type Block = (Vec<usize>, Vec<usize>);
+
+/// Connected components of E's nonzero pattern (rows and columns linked by a nonzero), and
+/// the rows and columns E does not use at all.
+pub(super) fn components(e: &DMatrix<f64>) -> (Vec<Block>, Vec<usize>, Vec<usize>) {
+    let n = e.nrows();
+    // Union–find over rows 0..n and columns n..2n.
     let mut parent: Vec<usize> = (0..2 * n).collect();
     fn find(p: &mut [usize], mut i: usize) -> usize {
         while p[i] != i {
@@ -164,23 +176,42 @@ fn split(desc: &Descriptor) -> (Semi, DMatrix<f64>, DMatrix<f64>) {
     let col_used: Vec<bool> = (0..n)
         .map(|j| e.column(j).iter().any(|&x| x != 0.0))
         .collect();
-    let mut comps: std::collections::BTreeMap<usize, (Vec<usize>, Vec<usize>)> = Default::default();
+    let mut comps: std::collections::BTreeMap<usize, Block> = Default::default();
     for i in (0..n).filter(|&i| row_used[i]) {
         comps.entry(find(&mut parent, i)).or_default().0.push(i);
     }
     for j in (0..n).filter(|&j| col_used[j]) {
         comps.entry(find(&mut parent, n + j)).or_default().1.push(j);
     }
+    let unused_rows = (0..n).filter(|&i| !row_used[i]).collect();
+    let unused_cols = (0..n).filter(|&j| !col_used[j]).collect();
+    (comps.into_values().collect(), unused_rows, unused_cols)
+}
+
+/// Rank tolerance of one block of E.
+pub(super) fn block_tol(block: &DMatrix<f64>) -> f64 {
+    64.0 * f64::EPSILON * block.nrows().max(block.ncols()) as f64 * block.amax()
+}
+
+/// Scale, split E by SVD block by block, and return the semi-explicit form together with the
+/// scaled descriptor (for diagnostics).
+fn split(desc: &Descriptor) -> (Semi, DMatrix<f64>, DMatrix<f64>) {
+    let (mut e, mut a) = (desc.e.clone(), desc.a.clone());
+    let mut b = desc.b.clone();
+    let mut c = desc.c.clone();
+    equilibrate_pencil(&mut e, &mut a, &mut b, &mut c);
+    let n = e.nrows();
+    let (e_scaled, a_scaled) = (e.clone(), a.clone());
+    let (comps, unused_rows, unused_cols) = components(&e);
 
     let mut dyn_rows = Vec::new();
     let mut dyn_cols = Vec::new();
     let mut sig = Vec::new();
-    let mut alg_rows: Vec<usize> = (0..n).filter(|&i| !row_used[i]).collect();
-    let mut alg_cols: Vec<usize> = (0..n).filter(|&j| !col_used[j]).collect();
-    for (rows, cols) in comps.values() {
+    let mut alg_rows = unused_rows;
+    let mut alg_cols = unused_cols;
+    for (rows, cols) in &comps {
         let block = select(&e, rows, cols);
-        let tol = 64.0 * f64::EPSILON * rows.len().max(cols.len()) as f64 * block.amax();
-        let (u, s, v) = full_svd(&block, tol);
+        let (u, s, v) = full_svd(&block, block_tol(&block));
         // Rows: A[rows, :] ← Uᵀ A[rows, :]; columns: A[:, cols] ← A[:, cols] V.
         let ar = u.transpose() * select(&a, rows, &(0..n).collect::<Vec<_>>());
         let br = u.transpose() * DVector::from_fn(rows.len(), |i, _| b[rows[i]]);
