@@ -310,9 +310,11 @@ pub fn analyse(
         if use_corners || toleranced.len() <= MAX_DIFFERENCED_PARTS {
             parallel_map(toleranced.len(), &|k| {
                 let i = toleranced[k];
+                // Both sides by the same (case) path, so its rounding cancels in the difference.
                 let fig = |f: f64| {
-                    let s = netlist::with_values(spec, &values_with(spec, &base, &[i], &[f]));
-                    analyse_net(&s).ok().map(|n| figures(&n, threshold))
+                    let values = values_with(spec, &base, &[i], &[f]);
+                    let net = validated.analyse_values(&values).map(Network::from_circuit);
+                    net.ok().map(|n| figures(&n, threshold))
                 };
                 let (up, down) = (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP));
                 let (up, down) = match (up, down) {

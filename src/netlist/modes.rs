@@ -112,45 +112,21 @@ const SMALL_ORDER: usize = 16;
 /// Sweep limit of nalgebra's Francis iteration (per eigenvalue, as LAPACK allows 30).
 const SCHUR_SWEEPS: usize = 30;
 
-/// The eigenvalues of a small matrix from nalgebra's real Schur form (Francis double-shift
-/// QR, bounded), the right eigenvectors by two steps of inverse iteration at each computed
-/// eigenvalue (LU of A − λI), V⁻¹ by LU. `None` when any step fails; the caller then takes
-/// faer's decomposition.
+/// The eigenvalues of a small matrix from nalgebra's real Schur form A = QTQᵀ (Francis
+/// double-shift QR, bounded), the right eigenvectors by back-substitution in T (as LAPACK's
+/// trevc does), V⁻¹ by LU. `None` when any step fails; the caller then takes faer's
+/// decomposition.
 fn eigen_small(a: &DMatrix<f64>) -> Option<Eigen> {
     let n = a.nrows();
     let schur = nalgebra::linalg::Schur::try_new(a.clone(), f64::EPSILON, SCHUR_SWEEPS * n)?;
-    let t = schur.unpack().1;
-    let mut lam = Vec::with_capacity(n);
-    let mut conj_of = vec![None; n];
-    let mut k = 0;
-    while k < n {
-        if k + 1 < n && t[(k + 1, k)] != 0.0 {
-            let (p, q, r, s) = (t[(k, k)], t[(k, k + 1)], t[(k + 1, k)], t[(k + 1, k + 1)]);
-            let half = 0.5 * (p - s);
-            let disc = half * half + q * r;
-            let mid = 0.5 * (p + s);
-            if disc < 0.0 {
-                let im = (-disc).sqrt();
-                lam.push(C::new(mid, im));
-                lam.push(C::new(mid, -im));
-                conj_of[k + 1] = Some(k);
-            } else {
-                let root = disc.sqrt();
-                lam.push(C::new(mid + root.copysign(half), 0.0));
-                lam.push(C::new(mid - root.copysign(half), 0.0));
-            }
-            k += 2;
-        } else {
-            lam.push(C::new(t[(k, k)], 0.0));
-            k += 1;
-        }
-    }
-    let anorm = a.norm();
+    let (q, t) = schur.unpack();
+    let (lam, start, conj_of) = schur_eigenvalues(&t);
+    let tnorm = t.norm();
     let mut v = DMatrix::<C>::zeros(n, n);
     for k in 0..n {
         let col = match conj_of[k] {
             Some(u) => v.column(u).map(|x| x.conj()),
-            None => inverse_iteration(a, lam[k], anorm)?,
+            None => schur_vector(&t, &q, start[k], lam[k], tnorm)?,
         };
         v.set_column(k, &col);
     }
@@ -165,31 +141,100 @@ fn eigen_small(a: &DMatrix<f64>) -> Option<Eigen> {
     })
 }
 
-/// A unit right eigenvector of `a` at the computed eigenvalue `l`: two solves with A − λI
-/// (shifted off λ by ε‖A‖ should the LU meet an exact zero pivot).
-fn inverse_iteration(a: &DMatrix<f64>, l: C, anorm: f64) -> Option<nalgebra::DVector<C>> {
-    let n = a.nrows();
-    let shifted = |d: C| {
-        DMatrix::<C>::from_fn(n, n, |i, j| {
-            C::new(a[(i, j)], 0.0) - if i == j { d } else { ZERO }
-        })
-    };
-    let mut x = nalgebra::DVector::<C>::from_fn(n, |i, _| C::new(1.0 + 0.618_034 * i as f64, 0.0));
-    let lu = shifted(l).lu();
-    let lu = if lu.is_invertible() {
-        lu
-    } else {
-        shifted(l + C::new(f64::EPSILON * anorm, f64::EPSILON * anorm)).lu()
-    };
-    for _ in 0..2 {
-        x = lu.solve(&x)?;
-        let norm = x.norm();
-        if !(norm.is_finite() && norm > 0.0) {
-            return None;
+/// The eigenvalues of a real quasi-triangular T, complex pairs upper member first; for each,
+/// where its diagonal block starts (`(k, true)` for a 2 × 2 block at k, k+1) and, for a
+/// lower member, the index of its upper one.
+#[allow(clippy::type_complexity)]
+fn schur_eigenvalues(t: &DMatrix<f64>) -> (Vec<C>, Vec<(usize, bool)>, Vec<Option<usize>>) {
+    let n = t.nrows();
+    let (mut lam, mut start) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    let mut conj_of = vec![None; n];
+    let mut k = 0;
+    while k < n {
+        if k + 1 < n && t[(k + 1, k)] != 0.0 {
+            let (p, q, r, s) = (t[(k, k)], t[(k, k + 1)], t[(k + 1, k)], t[(k + 1, k + 1)]);
+            let half = 0.5 * (p - s);
+            let disc = half * half + q * r;
+            let mid = 0.5 * (p + s);
+            if disc < 0.0 {
+                let im = (-disc).sqrt();
+                lam.extend([C::new(mid, im), C::new(mid, -im)]);
+                conj_of[k + 1] = Some(k);
+            } else {
+                let root = disc.sqrt().copysign(half);
+                lam.extend([C::new(mid + root, 0.0), C::new(mid - root, 0.0)]);
+            }
+            start.extend([(k, true), (k, true)]);
+            k += 2;
+        } else {
+            lam.push(C::new(t[(k, k)], 0.0));
+            start.push((k, false));
+            k += 1;
         }
-        x /= C::new(norm, 0.0);
     }
-    Some(x)
+    (lam, start, conj_of)
+}
+
+/// The unit right eigenvector Q·y of A at eigenvalue `l` of T, from (T − λI)y = 0 solved
+/// upwards from the eigenvalue's diagonal block (`start`); divisors at rounding level of ‖T‖
+/// are raised to it, as trevc does.
+fn schur_vector(
+    t: &DMatrix<f64>,
+    q: &DMatrix<f64>,
+    start: (usize, bool),
+    l: C,
+    tnorm: f64,
+) -> Option<nalgebra::DVector<C>> {
+    let n = t.nrows();
+    let small = (f64::EPSILON * tnorm).max(f64::MIN_POSITIVE);
+    let guard = |d: C| {
+        if d.norm() < small {
+            C::new(small, 0.0)
+        } else {
+            d
+        }
+    };
+    let mut y = vec![ZERO; n];
+    let (k, pair) = start;
+    if pair {
+        let (p, qq, r, s) = (t[(k, k)], t[(k, k + 1)], t[(k + 1, k)], t[(k + 1, k + 1)]);
+        // A null vector of the block from its first row, or its second where that is larger.
+        let (a0, a1) = (C::new(qq, 0.0), l - p);
+        let (b0, b1) = (C::new(s, 0.0) - l, C::new(-r, 0.0));
+        let first = a0.norm_sqr() + a1.norm_sqr() >= b0.norm_sqr() + b1.norm_sqr();
+        (y[k], y[k + 1]) = if first { (a0, a1) } else { (b0, b1) };
+    } else {
+        y[k] = C::new(1.0, 0.0);
+    }
+    let top = if pair { k + 2 } else { k + 1 };
+    let rhs = |y: &[C], row: usize, from: usize| -> C {
+        -(from..top).map(|j| y[j] * t[(row, j)]).sum::<C>()
+    };
+    let mut i = k;
+    while i > 0 {
+        let row = i - 1;
+        if row >= 1 && t[(row, row - 1)] != 0.0 {
+            let (u, w) = (row - 1, row);
+            let (a11, a12) = (C::new(t[(u, u)], 0.0) - l, C::new(t[(u, w)], 0.0));
+            let (a21, a22) = (C::new(t[(w, u)], 0.0), C::new(t[(w, w)], 0.0) - l);
+            let (r1, r2) = (rhs(&y, u, w + 1), rhs(&y, w, w + 1));
+            let det = guard(a11 * a22 - a12 * a21);
+            y[u] = (r1 * a22 - a12 * r2) / det;
+            y[w] = (a11 * r2 - a21 * r1) / det;
+            i -= 2;
+        } else {
+            y[row] = rhs(&y, row, row + 1) / guard(C::new(t[(row, row)], 0.0) - l);
+            i -= 1;
+        }
+    }
+    let mut v =
+        nalgebra::DVector::<C>::from_fn(n, |r, _| (0..top).map(|j| y[j] * q[(r, j)]).sum::<C>());
+    let norm = v.norm();
+    if !(norm.is_finite() && norm > 0.0) {
+        return None;
+    }
+    v /= C::new(norm, 0.0);
+    Some(v)
 }
 
 fn modes_of(ss: &StateSpace, full: bool) -> Result<Vec<CircuitMode>, String> {
