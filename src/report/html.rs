@@ -251,30 +251,8 @@ fn tolerance_html(s: &mut String, out: &PlanOutcome, u: &Units) {
         "<section><h2>Tolerances</h2><p class=\"note\">{}</p><table><thead><tr><th>quantity</th><th>nominal</th><th>min</th><th>max</th></tr></thead><tbody>",
         escape(&how)
     );
-    for (name, sp) in [
-        ("fastest significant τ", &t.tau_fast),
-        ("slowest time constant", &t.tau_slow),
-    ] {
-        row(
-            s,
-            name,
-            &[
-                eng(sp.nominal, Dim::Time),
-                eng(sp.min, Dim::Time),
-                eng(sp.max, Dim::Time),
-            ],
-        );
-    }
-    if t.h0.nominal != 0.0 {
-        row(
-            s,
-            "h(0⁺)",
-            &[
-                u.h_value(t.h0.nominal),
-                u.h_value(t.h0.min),
-                u.h_value(t.h0.max),
-            ],
-        );
+    for (name, cells) in super::tables::tolerance_rows(t, u) {
+        row(s, name, &cells);
     }
     let _ = writeln!(s, "</tbody></table>");
     if !t.sensitivities.is_empty() {
