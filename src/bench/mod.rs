@@ -136,16 +136,7 @@ pub fn fit_for(
         warnings.extend(timing::too_slow(s, timing_change));
     }
     let budget = working_budget(s, &estimate);
-    let noise = match fitted {
-        Some(n) => noise::NoiseStep {
-            fit: NoiseFit {
-                noise: None,
-                averages: Some(n),
-            },
-            ..Default::default()
-        },
-        None => noise::assess(inp, prep, &pulse, &estimate, budget),
-    };
+    let noise = noise_step(inp, prep, &pulse, &estimate, budget, fitted);
     let record_run = match fitted {
         Some(_) => prep.run + pulse.end(),
         None => prep.run,
@@ -161,17 +152,19 @@ pub fn fit_for(
         inp.bench.generator.as_ref(),
     );
     warnings.extend(repeat::warnings(period.as_ref()));
+    let pre_samples = if fitted.is_some() {
+        FIT_PRE_SAMPLES
+    } else {
+        0.0
+    };
+    let averages = noise.fit.averages.unwrap_or(1);
     let cap = capture::plan_capture(
         &pulse,
         &dynamics(prep),
         record_run,
         inp.bench.capture.as_ref(),
-        noise.fit.averages.unwrap_or(1),
-        if fitted.is_some() {
-            FIT_PRE_SAMPLES
-        } else {
-            0.0
-        },
+        averages,
+        pre_samples,
     );
     let (w, n) = capture::warnings(&cap, &pulse);
     warnings.extend(w);
@@ -188,6 +181,28 @@ pub fn fit_for(
         budget,
         warnings,
         notes,
+    }
+}
+
+/// The noise step: for the fit reading the caller's `fitted` averages, otherwise the raw
+/// reading's noise curves and the averages they need for the budget.
+fn noise_step(
+    inp: &BenchInput,
+    prep: &Prepared,
+    pulse: &Trapezoid,
+    estimate: &ErrorEstimate,
+    budget: f64,
+    fitted: Option<u64>,
+) -> noise::NoiseStep {
+    match fitted {
+        Some(n) => noise::NoiseStep {
+            fit: NoiseFit {
+                noise: None,
+                averages: Some(n),
+            },
+            ..Default::default()
+        },
+        None => noise::assess(inp, prep, pulse, estimate, budget),
     }
 }
 
