@@ -382,88 +382,98 @@ fn pulses_table(s: &mut String, cols: &[(&str, &Trapezoid)], run: f64, drive: Si
     let _ = writeln!(s, "</tbody></table>");
 }
 
+/// The error table: exact signed figures for known residues, else one row per mode.
 fn errors_table(s: &mut String, e: &ErrorEstimate, u: &Units) {
+    if e.per_mode.is_empty() {
+        exact_errors_table(s, e, u);
+    } else {
+        per_mode_errors_table(s, e);
+    }
+}
+
+/// The exact readings, ideals, errors and first-order estimates of t0, t0-aligned and the window.
+fn exact_errors_table(s: &mut String, e: &ErrorEstimate, u: &Units) {
     let norm = match e.normalised_by {
         NormalisedBy::H0Plus => "|h(0⁺)|",
         NormalisedBy::Peak => "the peak |h| (h(0⁺) = 0)",
         NormalisedBy::EachMode => "each mode's own h(0⁺)",
     };
-    if e.per_mode.is_empty() {
-        let _ = writeln!(
-            s,
-            "<p class=\"note\">Exact figures, signed, relative to {} = {}.</p>",
-            escape(norm),
-            escape(&u.h_value(e.normaliser))
-        );
-        let _ = writeln!(
-            s,
-            "<table><thead><tr><th>metric</th><th>reading y/area</th><th>ideal</th><th>error</th>\
-             <th>first-order estimate</th></tr></thead><tbody>"
-        );
-        let _ = writeln!(
-            s,
-            "<tr><th>t0 (raw): y(end)/area vs h(0⁺)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-             <td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
-            escape(&u.h_value(e.t0.reading)),
-            escape(&u.h_value(e.t0.ideal)),
-            escape(&words::relative(e.t0.rel, e.floor)),
-            escape(&words::first_order_text(
-                e.first_order.t0_rel,
-                e.first_order.t0_floor
-            ))
-        );
-        let _ = writeln!(
-            s,
-            "<tr><th>t0-aligned: vs h(end − centroid)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-             <td class=\"num\">{}</td><td class=\"num\">{} (½σ²h″)</td></tr>",
-            escape(&u.h_value(e.t0_aligned.reading)),
-            escape(&u.h_value(e.t0_aligned.ideal)),
-            escape(&words::relative(e.t0_aligned.rel, e.floor)),
-            escape(&words::first_order_text(
-                e.first_order.t0_aligned_rel,
-                e.first_order.t0_aligned_floor
-            ))
-        );
-    } else {
-        let _ = writeln!(
-            s,
-            "<p class=\"note\">Residues unknown: each mode e<sup>−t/τ</sup> is assessed on its own, \
-             relative to its own h(0⁺); the worst mode leads each metric.</p>"
-        );
-        let _ = writeln!(
-            s,
-            "<table><thead><tr><th>mode τ</th><th>raw at 0⁺</th><th>aligned</th><th>window max</th>\
-             <th>window RMS</th></tr></thead><tbody>"
-        );
-        for m in &e.per_mode {
-            let _ = writeln!(
-                s,
-                "<tr><th>{}</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-                 <td class=\"num\">{}</td></tr>",
-                escape(&eng(m.time_constant, Dim::Time)),
-                escape(&words::relative(m.t0_rel, m.estimate.floor)),
-                escape(&words::relative(m.t0_aligned_rel, m.estimate.floor)),
-                escape(&percent_unsigned(m.window_max_rel)),
-                escape(&percent_unsigned(m.window_rms_rel))
-            );
-        }
-        let _ = writeln!(
-            s,
-            "<tr><th>worst mode</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-             <td class=\"num\">{}</td></tr>",
-            escape(&words::relative(e.t0.rel, e.floor)),
-            escape(&words::relative(e.t0_aligned.rel, e.floor)),
-            escape(&percent_unsigned(e.window.max_rel)),
-            escape(&percent_unsigned(e.window.rms_rel))
-        );
-        let _ = writeln!(s, "</tbody></table>");
-        return;
-    }
+    let _ = writeln!(
+        s,
+        "<p class=\"note\">Exact figures, signed, relative to {} = {}.</p>",
+        escape(norm),
+        escape(&u.h_value(e.normaliser))
+    );
+    let _ = writeln!(
+        s,
+        "<table><thead><tr><th>metric</th><th>reading y/area</th><th>ideal</th><th>error</th>\
+         <th>first-order estimate</th></tr></thead><tbody>"
+    );
+    let _ = writeln!(
+        s,
+        "<tr><th>t0 (raw): y(end)/area vs h(0⁺)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+         <td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
+        escape(&u.h_value(e.t0.reading)),
+        escape(&u.h_value(e.t0.ideal)),
+        escape(&words::relative(e.t0.rel, e.floor)),
+        escape(&words::first_order_text(
+            e.first_order.t0_rel,
+            e.first_order.t0_floor
+        ))
+    );
+    let _ = writeln!(
+        s,
+        "<tr><th>t0-aligned: vs h(end − centroid)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+         <td class=\"num\">{}</td><td class=\"num\">{} (½σ²h″)</td></tr>",
+        escape(&u.h_value(e.t0_aligned.reading)),
+        escape(&u.h_value(e.t0_aligned.ideal)),
+        escape(&words::relative(e.t0_aligned.rel, e.floor)),
+        escape(&words::first_order_text(
+            e.first_order.t0_aligned_rel,
+            e.first_order.t0_aligned_floor
+        ))
+    );
     let _ = writeln!(
         s,
         "<tr><th>window: y(t)/area vs h(t − c), end ≤ t ≤ run</th><td colspan=\"2\">maximum at {}</td>\
          <td class=\"num\">{}</td><td class=\"num\">RMS {}</td></tr>",
         escape(&eng(e.window.t_max, Dim::Time)),
+        escape(&percent_unsigned(e.window.max_rel)),
+        escape(&percent_unsigned(e.window.rms_rel))
+    );
+    let _ = writeln!(s, "</tbody></table>");
+}
+
+/// Residues unknown: each mode's errors on its own, and the worst mode.
+fn per_mode_errors_table(s: &mut String, e: &ErrorEstimate) {
+    let _ = writeln!(
+        s,
+        "<p class=\"note\">Residues unknown: each mode e<sup>−t/τ</sup> is assessed on its own, \
+         relative to its own h(0⁺); the worst mode leads each metric.</p>"
+    );
+    let _ = writeln!(
+        s,
+        "<table><thead><tr><th>mode τ</th><th>raw at 0⁺</th><th>aligned</th><th>window max</th>\
+         <th>window RMS</th></tr></thead><tbody>"
+    );
+    for m in &e.per_mode {
+        let _ = writeln!(
+            s,
+            "<tr><th>{}</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+             <td class=\"num\">{}</td></tr>",
+            escape(&eng(m.time_constant, Dim::Time)),
+            escape(&words::relative(m.t0_rel, m.estimate.floor)),
+            escape(&words::relative(m.t0_aligned_rel, m.estimate.floor)),
+            escape(&percent_unsigned(m.window_max_rel)),
+            escape(&percent_unsigned(m.window_rms_rel))
+        );
+    }
+    let _ = writeln!(
+        s,
+        "<tr><th>worst mode</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+         <td class=\"num\">{}</td></tr>",
+        escape(&words::relative(e.t0.rel, e.floor)),
+        escape(&words::relative(e.t0_aligned.rel, e.floor)),
         escape(&percent_unsigned(e.window.max_rel)),
         escape(&percent_unsigned(e.window.rms_rel))
     );
