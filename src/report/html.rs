@@ -5,7 +5,7 @@ use super::figures::Figure;
 use super::markup::escape;
 use super::words::{self, Context, Units};
 use crate::bench::BenchPlan;
-use crate::estimate::{ErrorEstimate, NormalisedBy};
+use crate::estimate::{ErrorEstimate, NormalisedBy, Reading};
 use crate::network::{Network, NetworkSpec};
 use crate::notice::Note;
 use crate::notice::Warning;
@@ -409,29 +409,27 @@ fn exact_errors_table(s: &mut String, e: &ErrorEstimate, u: &Units) {
         "<table><thead><tr><th>metric</th><th>reading y/area</th><th>ideal</th><th>error</th>\
          <th>first-order estimate</th></tr></thead><tbody>"
     );
-    let _ = writeln!(
+    let t0_first = words::first_order_text(e.first_order.t0_rel, e.first_order.t0_floor);
+    exact_row(
         s,
-        "<tr><th>t0 (raw): y(end)/area vs h(0⁺)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-         <td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
-        escape(&u.h_value(e.t0.reading)),
-        escape(&u.h_value(e.t0.ideal)),
-        escape(&words::relative(e.t0.rel, e.floor)),
-        escape(&words::first_order_text(
-            e.first_order.t0_rel,
-            e.first_order.t0_floor
-        ))
+        "t0 (raw): y(end)/area vs h(0⁺)",
+        &e.t0,
+        e.floor,
+        u,
+        &t0_first,
+        "",
     );
-    let _ = writeln!(
+    let aligned_first =
+        words::first_order_text(e.first_order.t0_aligned_rel, e.first_order.t0_aligned_floor);
+    let head = "t0-aligned: vs h(end − centroid)";
+    exact_row(
         s,
-        "<tr><th>t0-aligned: vs h(end − centroid)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-         <td class=\"num\">{}</td><td class=\"num\">{} (½σ²h″)</td></tr>",
-        escape(&u.h_value(e.t0_aligned.reading)),
-        escape(&u.h_value(e.t0_aligned.ideal)),
-        escape(&words::relative(e.t0_aligned.rel, e.floor)),
-        escape(&words::first_order_text(
-            e.first_order.t0_aligned_rel,
-            e.first_order.t0_aligned_floor
-        ))
+        head,
+        &e.t0_aligned,
+        e.floor,
+        u,
+        &aligned_first,
+        " (½σ²h″)",
     );
     let _ = writeln!(
         s,
@@ -442,6 +440,28 @@ fn exact_errors_table(s: &mut String, e: &ErrorEstimate, u: &Units) {
         escape(&percent_unsigned(e.window.rms_rel))
     );
     let _ = writeln!(s, "</tbody></table>");
+}
+
+/// One reading's row of the exact table: reading, ideal, error and first-order estimate
+/// (followed by `basis`, the estimate's term).
+fn exact_row(
+    s: &mut String,
+    head: &str,
+    r: &Reading,
+    floor: f64,
+    u: &Units,
+    first_order: &str,
+    basis: &str,
+) {
+    let _ = writeln!(
+        s,
+        "<tr><th>{head}</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+         <td class=\"num\">{}</td><td class=\"num\">{}{basis}</td></tr>",
+        escape(&u.h_value(r.reading)),
+        escape(&u.h_value(r.ideal)),
+        escape(&words::relative(r.rel, floor)),
+        escape(first_order)
+    );
 }
 
 /// Residues unknown: each mode's errors on its own, and the worst mode.

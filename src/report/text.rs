@@ -380,13 +380,19 @@ fn header(s: &mut String, sc: &Scenario, verb: &str) {
     let _ = writeln!(s);
 }
 
-/// Text report for `plan`.
-pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
+/// The report's opening: its header and the network section, and the units it is read in.
+fn opening(sc: &Scenario, command: &str, prep: &Prepared) -> (String, Units) {
     let mut s = String::new();
     let u = Units::of(sc.drive, sc.output);
-    header(&mut s, sc, "plan");
-    network_text(&mut s, &sc.network, &out.prep, &u);
+    header(&mut s, sc, command);
+    network_text(&mut s, &sc.network, prep, &u);
     let _ = writeln!(s);
+    (s, u)
+}
+
+/// Text report for `plan`.
+pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
+    let (mut s, u) = opening(sc, "plan", &out.prep);
     let rule_heading = format!(
         "Rule of thumb (common practice, no source): width = fastest significant time scale/{}, edges = width/{}",
         sc.plan.width_ratio, sc.plan.edge_ratio
@@ -497,11 +503,7 @@ fn budget_text(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
 
 /// Text report for `assess`.
 pub fn assess_text(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> String {
-    let mut s = String::new();
-    let u = Units::of(sc.drive, sc.output);
-    header(&mut s, sc, "assess");
-    network_text(&mut s, &sc.network, &out.prep, &u);
-    let _ = writeln!(s);
+    let (mut s, u) = opening(sc, "assess", &out.prep);
     let heading = format!(
         "Pulse assessed ([pulse], {})",
         super::tables::pulse_place(sc)
