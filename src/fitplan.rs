@@ -454,9 +454,7 @@ fn finish(
     let bounds = Bounds::new(&cx.modes, &bench.pulse, &sampling)?;
     let (mut intervals, weak) = mode_intervals(&cx.modes, &bounds, noise_n, &mut warnings);
     order_checks(&cx.modes, &bounds, noise_n, &mut warnings);
-    let mut out_modes = left_out;
-    out_modes.extend(unresolved);
-    out_modes.extend(weak);
+    let out_modes: Vec<FitMode> = left_out.into_iter().chain(unresolved).chain(weak).collect();
     let out_share = share(&out_modes, cx.normaliser());
     left_out_notices(&out_modes, out_share, cx.budget, &mut warnings, &mut notes);
     if direct != 0.0 {
