@@ -492,7 +492,7 @@ fn uf_index(circuit: &Circuit, name: &str) -> usize {
     circuit.node(name).map_or(0, |k| k + 1)
 }
 
-/// 1. Loops of voltage-type branches (with the stimulus when it is an ideal voltage source).
+/// Loops of voltage-type branches (with the stimulus when it is an ideal voltage source).
 fn voltage_loops(
     spec: &NetlistSpec,
     circuit: &Circuit,
@@ -524,9 +524,9 @@ fn voltage_loops(
     Ok(())
 }
 
-/// 2. Cut-sets of current sources / floating subcircuits: contract every branch that
-/// relates node voltages; a component without ground is held only by current sources
-/// and high-impedance inputs.
+/// Cut-sets of current sources / floating subcircuits: contract every branch that relates
+/// node voltages; a component without ground is held only by current sources and
+/// high-impedance inputs.
 fn held_by_current_sources(
     spec: &NetlistSpec,
     circuit: &Circuit,
