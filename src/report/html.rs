@@ -504,28 +504,9 @@ fn budget_text(sc: &Scenario, out: &PlanOutcome) -> String {
     words::budget_text(out.budget.as_ref(), &sc.plan)
 }
 
-fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
-    let (act, info): (Vec<&Warning>, Vec<&Warning>) = ws
-        .iter()
-        .partition(|w| w.severity() == crate::notice::Severity::Act);
-    if !info.is_empty() {
-        let _ = writeln!(s, "<h3>Notes</h3><ul class=\"notes\">");
-        for w in info {
-            let _ = writeln!(
-                s,
-                "<li><code>{}</code> {}</li>",
-                escape(w.code()),
-                escape(&words::warning_text(w, cx))
-            );
-        }
-        let _ = writeln!(s, "</ul>");
-    }
-    if act.is_empty() {
-        let _ = writeln!(s, "<p class=\"ok\">No warnings.</p>");
-        return;
-    }
-    let _ = writeln!(s, "<ul class=\"warnings\">");
-    for w in act {
+/// One list item per warning: its code and its sentence.
+fn warning_items(s: &mut String, ws: &[&Warning], cx: &Context) {
+    for w in ws {
         let _ = writeln!(
             s,
             "<li><code>{}</code> {}</li>",
@@ -533,6 +514,23 @@ fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
             escape(&words::warning_text(w, cx))
         );
     }
+}
+
+fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
+    let (act, info): (Vec<&Warning>, Vec<&Warning>) = ws
+        .iter()
+        .partition(|w| w.severity() == crate::notice::Severity::Act);
+    if !info.is_empty() {
+        let _ = writeln!(s, "<h3>Notes</h3><ul class=\"notes\">");
+        warning_items(s, &info, cx);
+        let _ = writeln!(s, "</ul>");
+    }
+    if act.is_empty() {
+        let _ = writeln!(s, "<p class=\"ok\">No warnings.</p>");
+        return;
+    }
+    let _ = writeln!(s, "<ul class=\"warnings\">");
+    warning_items(s, &act, cx);
     let _ = writeln!(s, "</ul>");
 }
 
