@@ -568,15 +568,20 @@ pub fn inline_svg(svg: &str) -> String {
     s
 }
 
+/// The network's sections: its modes, its facts and its time scales.
+fn network_sections(s: String, sc: &Scenario, prep: &Prepared) -> String {
+    let s = network_html(s, sc, prep);
+    let s = network_facts_html(s, sc, prep);
+    time_scales_html(s, sc, prep)
+}
+
 /// The HTML report for `plan`, with the given figures inlined in order.
 pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String {
     let mut s = String::with_capacity(64 * 1024);
     let prep = &out.prep;
     s = head_html(s, sc, "pulse plan");
     s = summary_html(s, sc, out);
-    s = network_html(s, sc, prep);
-    s = network_facts_html(s, sc, prep);
-    s = time_scales_html(s, sc, prep);
+    s = network_sections(s, sc, prep);
     s = plan_section_html(s, sc, out);
     let u = Units::of(sc.drive, sc.output);
     bench_html(&mut s, sc, &out.bench, &out.notes);
@@ -599,9 +604,7 @@ pub fn assess_html(sc: &Scenario, out: &AssessOutcome, figures: &[Figure]) -> St
     let mut s = String::with_capacity(64 * 1024);
     let prep = &out.prep;
     s = head_html(s, sc, "pulse assessed");
-    s = network_html(s, sc, prep);
-    s = network_facts_html(s, sc, prep);
-    s = time_scales_html(s, sc, prep);
+    s = network_sections(s, sc, prep);
     let _ = writeln!(
         s,
         "<section><h2>Pulse assessed ([pulse], {})</h2>",
