@@ -450,28 +450,11 @@ fn finish(
     let noise_n = cx.sigma / (n as f64).sqrt();
     let mut warnings = Vec::new();
     let mut notes = Vec::new();
-    // Modes the record cannot resolve: out of the model.
-    let kept = resolved(&cx.modes, sampling.interval);
-    let unresolved: Vec<FitMode> = cx
-        .modes
-        .iter()
-        .copied()
-        .filter(|m| !kept.contains(m))
-        .collect();
-    for m in &unresolved {
-        warnings.push(Warning::FitModeUnresolved {
-            pole: m.pole,
-            decay: 1.0 / -m.pole.re,
-            interval: sampling.interval,
-        });
-    }
-    cx.modes = kept;
+    let unresolved = drop_unresolved(&mut cx.modes, sampling.interval, &mut warnings);
     let bounds = Bounds::new(&cx.modes, &bench.pulse, &sampling)?;
     let (mut intervals, weak) = mode_intervals(&cx.modes, &bounds, noise_n, &mut warnings);
     order_checks(&cx.modes, &bounds, noise_n, &mut warnings);
-    let mut out_modes = left_out;
-    out_modes.extend(unresolved);
-    out_modes.extend(weak);
+    let out_modes: Vec<FitMode> = left_out.into_iter().chain(unresolved).chain(weak).collect();
     let out_share = share(&out_modes, cx.normaliser());
     left_out_notices(&out_modes, out_share, cx.budget, &mut warnings, &mut notes);
     if direct != 0.0 {
@@ -493,17 +476,7 @@ fn finish(
             test_time,
         });
     }
-    let fit_row = PlanRow {
-        plan: Which::Fit,
-        reading: ReadingKind::Fit,
-        width: bench.pulse.width_50(),
-        amplitude: bench.pulse.amplitude,
-        period: bench.period.as_ref().map(|p| p.period),
-        bias: 0.0,
-        noise: predicted * (n as f64).sqrt(),
-        averages: met.then_some(n),
-        at_equal_time: predicted,
-    };
+    let fit_row = fit_row(&bench, predicted, n, met);
     let rows = [
         raw_row(&cx, Which::RuleOfThumb, reference.rule, test_time),
         raw_row(&cx, Which::Budget, reference.budget, test_time),
@@ -534,6 +507,46 @@ fn finish(
         warnings,
         notes,
     })
+}
+
+/// The fit plan's row of the comparison: `n` averages (`met`: they reach the budget) with
+/// the `predicted` interval.
+fn fit_row(bench: &BenchPlan, predicted: f64, n: u64, met: bool) -> PlanRow {
+    PlanRow {
+        plan: Which::Fit,
+        reading: ReadingKind::Fit,
+        width: bench.pulse.width_50(),
+        amplitude: bench.pulse.amplitude,
+        period: bench.period.as_ref().map(|p| p.period),
+        bias: 0.0,
+        noise: predicted * (n as f64).sqrt(),
+        averages: met.then_some(n),
+        at_equal_time: predicted,
+    }
+}
+
+/// Take the modes a record sampled every `interval` cannot resolve out of the model, warning
+/// about each; returns them.
+fn drop_unresolved(
+    modes: &mut Vec<FitMode>,
+    interval: f64,
+    warnings: &mut Vec<Warning>,
+) -> Vec<FitMode> {
+    let kept = resolved(modes, interval);
+    let unresolved: Vec<FitMode> = modes
+        .iter()
+        .copied()
+        .filter(|m| !kept.contains(m))
+        .collect();
+    for m in &unresolved {
+        warnings.push(Warning::FitModeUnresolved {
+            pole: m.pole,
+            decay: 1.0 / -m.pole.re,
+            interval,
+        });
+    }
+    *modes = kept;
+    unresolved
 }
 
 /// Each mode's time-constant interval at the planned noise; modes too weak to deliver theirs

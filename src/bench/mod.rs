@@ -116,14 +116,7 @@ pub fn fit_for(
     let est = &prep.estimator;
     let mut warnings = Vec::new();
     let mut notes = Vec::new();
-    let timed = if adapt {
-        timing::fit(planned, &gen_)
-    } else {
-        timing::TimingFit {
-            pulse: *planned,
-            note: None,
-        }
-    };
+    let timed = timing_step(planned, &gen_, adapt);
     notes.extend(timed.note);
     let amp = amplitude::fit(inp, prep, &timed.pulse, planned.area(), adapt);
     warnings.extend(amp.warnings.iter().cloned());
@@ -136,16 +129,7 @@ pub fn fit_for(
         warnings.extend(timing::too_slow(s, timing_change));
     }
     let budget = working_budget(s, &estimate);
-    let noise = match fitted {
-        Some(n) => noise::NoiseStep {
-            fit: NoiseFit {
-                noise: None,
-                averages: Some(n),
-            },
-            ..Default::default()
-        },
-        None => noise::assess(inp, prep, &pulse, &estimate, budget),
-    };
+    let noise = noise_step(inp, prep, &pulse, &estimate, budget, fitted);
     let record_run = match fitted {
         Some(_) => prep.run + pulse.end(),
         None => prep.run,
@@ -161,18 +145,8 @@ pub fn fit_for(
         inp.bench.generator.as_ref(),
     );
     warnings.extend(repeat::warnings(period.as_ref()));
-    let cap = capture::plan_capture(
-        &pulse,
-        &dynamics(prep),
-        record_run,
-        inp.bench.capture.as_ref(),
-        noise.fit.averages.unwrap_or(1),
-        if fitted.is_some() {
-            FIT_PRE_SAMPLES
-        } else {
-            0.0
-        },
-    );
+    let averages = noise.fit.averages.unwrap_or(1);
+    let cap = capture_step(inp, prep, &pulse, record_run, averages, fitted.is_some());
     let (w, n) = capture::warnings(&cap, &pulse);
     warnings.extend(w);
     notes.extend(n);
@@ -188,6 +162,61 @@ pub fn fit_for(
         budget,
         warnings,
         notes,
+    }
+}
+
+/// The timing step: the planned pulse fitted to the generator (`adapt`), or kept as it is.
+fn timing_step(planned: &Trapezoid, gen_: &Generator, adapt: bool) -> timing::TimingFit {
+    if adapt {
+        timing::fit(planned, gen_)
+    } else {
+        timing::TimingFit {
+            pulse: *planned,
+            note: None,
+        }
+    }
+}
+
+/// The capture step: the record over `record_run` at `averages`, holding
+/// [`FIT_PRE_SAMPLES`] before the pulse when h is read by the fit (`fitted`).
+fn capture_step(
+    inp: &BenchInput,
+    prep: &Prepared,
+    pulse: &Trapezoid,
+    record_run: f64,
+    averages: u64,
+    fitted: bool,
+) -> CapturePlan {
+    let pre_samples = if fitted { FIT_PRE_SAMPLES } else { 0.0 };
+    capture::plan_capture(
+        pulse,
+        &dynamics(prep),
+        record_run,
+        inp.bench.capture.as_ref(),
+        averages,
+        pre_samples,
+    )
+}
+
+/// The noise step: for the fit reading the caller's `fitted` averages, otherwise the raw
+/// reading's noise curves and the averages they need for the budget.
+fn noise_step(
+    inp: &BenchInput,
+    prep: &Prepared,
+    pulse: &Trapezoid,
+    estimate: &ErrorEstimate,
+    budget: f64,
+    fitted: Option<u64>,
+) -> noise::NoiseStep {
+    match fitted {
+        Some(n) => noise::NoiseStep {
+            fit: NoiseFit {
+                noise: None,
+                averages: Some(n),
+            },
+            ..Default::default()
+        },
+        None => noise::assess(inp, prep, pulse, estimate, budget),
     }
 }
 

@@ -16,32 +16,18 @@ fn part(name: &str, kind: PartKind) -> Part {
         tolerance: None,
     }
 }
+/// A two-terminal part between `a` and `b`, its kind made from its nodes.
+fn two_terminal(name: &str, a: &str, b: &str, kind: impl FnOnce([String; 2]) -> PartKind) -> Part {
+    part(name, kind([s(a), s(b)]))
+}
 fn r(name: &str, a: &str, b: &str, value: f64) -> Part {
-    part(
-        name,
-        PartKind::Resistor {
-            nodes: [s(a), s(b)],
-            value,
-        },
-    )
+    two_terminal(name, a, b, |nodes| PartKind::Resistor { nodes, value })
 }
 fn c(name: &str, a: &str, b: &str, value: f64) -> Part {
-    part(
-        name,
-        PartKind::Capacitor {
-            nodes: [s(a), s(b)],
-            value,
-        },
-    )
+    two_terminal(name, a, b, |nodes| PartKind::Capacitor { nodes, value })
 }
 fn l(name: &str, a: &str, b: &str, value: f64) -> Part {
-    part(
-        name,
-        PartKind::Inductor {
-            nodes: [s(a), s(b)],
-            value,
-        },
-    )
+    two_terminal(name, a, b, |nodes| PartKind::Inductor { nodes, value })
 }
 fn opamp(
     name: &str,
@@ -99,6 +85,20 @@ fn h0_plus(net: &CircuitFunction) -> f64 {
     net.modes.iter().map(|m| m.residues[0].re).sum()
 }
 
+/// Check that `sp` reduces to one state, and analyse it.
+fn first_order(sp: &NetlistSpec) -> CircuitFunction {
+    assert_eq!(state_space(sp).unwrap().order(), 1);
+    analyse(sp).unwrap()
+}
+/// Check a mode's pole and leading residue, each to its relative tolerance.
+fn check_mode(m: &Mode, pole: Complex64, residue: Complex64, (pole_rel, res_rel): (f64, f64)) {
+    assert!(close(m.pole, pole, pole_rel), "pole {} vs {pole}", m.pole);
+    assert!(
+        close(m.residues[0], residue, res_rel),
+        "residue {} vs {residue}",
+        m.residues[0]
+    );
+}
 fn pole_near(modes: &[Mode], p: Complex64, rel: f64) -> &Mode {
     modes
         .iter()
@@ -122,12 +122,14 @@ fn rc_first_order() {
         Stimulus::Voltage,
         vec![r("R1", "in", "out", rv), c("C1", "out", "gnd", cv)],
     );
-    let ss = state_space(&sp).unwrap();
-    assert_eq!(ss.order(), 1);
-    let net = analyse(&sp).unwrap();
+    let net = first_order(&sp);
     assert_eq!(net.modes.len(), 1);
-    assert!(close(net.modes[0].pole, real(-1.0 / tau), 1e-13));
-    assert!(close(net.modes[0].residues[0], real(1.0 / tau), 1e-12));
+    check_mode(
+        &net.modes[0],
+        real(-1.0 / tau),
+        real(1.0 / tau),
+        (1e-13, 1e-12),
+    );
     assert_eq!(net.modes[0].pole.im, 0.0);
     assert_eq!(net.direct, 0.0);
     assert!((net.h0_ivt - 1.0 / tau).abs() < 1e-12 / tau);
@@ -147,8 +149,12 @@ fn rc_with_source_resistance_and_current_stimulus() {
     sp.source_resistance = Some(rs);
     let net = analyse(&sp).unwrap();
     let tau = (rs + rv) * cv;
-    assert!(close(net.modes[0].pole, real(-1.0 / tau), 1e-13));
-    assert!(close(net.modes[0].residues[0], real(1.0 / tau), 1e-12));
+    check_mode(
+        &net.modes[0],
+        real(-1.0 / tau),
+        real(1.0 / tau),
+        (1e-13, 1e-12),
+    );
 
     let mut sp = spec(
         "n",
@@ -158,8 +164,12 @@ fn rc_with_source_resistance_and_current_stimulus() {
     );
     sp.source_resistance = Some(rs);
     let net = analyse(&sp).unwrap();
-    assert!(close(net.modes[0].pole, real(-1.0 / (rs * cv)), 1e-13));
-    assert!(close(net.modes[0].residues[0], real(1.0 / cv), 1e-12));
+    check_mode(
+        &net.modes[0],
+        real(-1.0 / (rs * cv)),
+        real(1.0 / cv),
+        (1e-13, 1e-12),
+    );
 }
 
 #[test]
@@ -176,8 +186,7 @@ fn rl_first_order_with_direct_term() {
     let net = analyse(&sp).unwrap();
     let a = rv / lv;
     assert_eq!(net.modes.len(), 1);
-    assert!(close(net.modes[0].pole, real(-a), 1e-13));
-    assert!(close(net.modes[0].residues[0], real(-a), 1e-12));
+    check_mode(&net.modes[0], real(-a), real(-a), (1e-13, 1e-12));
     assert!((net.direct - 1.0).abs() < 1e-13);
     assert!((net.h0_ivt + a).abs() < 1e-12 * a);
     // The current through L1 (in → out → L1 → ground): i = u/(R + sL), residue 1/L.
@@ -490,11 +499,8 @@ fn capacitor_across_source_reduces_the_order() {
             c("C1", "out", "gnd", cv),
         ],
     );
-    let ss = state_space(&sp).unwrap();
-    assert_eq!(ss.order(), 1);
-    let net = analyse(&sp).unwrap();
-    assert!(close(net.modes[0].pole, real(-1e3), 1e-12));
-    assert!(close(net.modes[0].residues[0], real(1e3), 1e-12));
+    let net = first_order(&sp);
+    check_mode(&net.modes[0], real(-1e3), real(1e3), (1e-12, 1e-12));
     // Its current is C0·u' + …: improper, refused by state_space, kept by analyse
     // (the current into the network is u·(sC0 + 1/(R + 1/sC1)): s-coefficient C0).
     let mut sp2 = sp.clone();
@@ -523,8 +529,7 @@ fn capacitor_loop_with_source_gives_direct_term() {
     let d = c1 / (c1 + c2);
     let a = 1.0 / (r2 * (c1 + c2));
     assert!((net.direct - d).abs() < 1e-13);
-    assert!(close(net.modes[0].pole, real(-a), 1e-12));
-    assert!(close(net.modes[0].residues[0], real(-d * a), 1e-12));
+    check_mode(&net.modes[0], real(-a), real(-d * a), (1e-12, 1e-12));
 }
 
 #[test]
@@ -542,11 +547,13 @@ fn inductor_in_series_with_current_source_reduces_the_order() {
             c("C1", "m", "gnd", cv),
         ],
     );
-    let ss = state_space(&sp).unwrap();
-    assert_eq!(ss.order(), 1);
-    let net = analyse(&sp).unwrap();
-    assert!(close(net.modes[0].pole, real(-1.0 / (rv * cv)), 1e-12));
-    assert!(close(net.modes[0].residues[0], real(1.0 / cv), 1e-12));
+    let net = first_order(&sp);
+    check_mode(
+        &net.modes[0],
+        real(-1.0 / (rv * cv)),
+        real(1.0 / cv),
+        (1e-12, 1e-12),
+    );
 }
 
 #[test]

@@ -95,12 +95,44 @@ fn ratio_text(f: f64) -> String {
 /// Word the fit plan.
 pub fn fit_words(fp: &FitPlan, sc: &Scenario) -> FitWords {
     let u = Units::of(sc.drive, sc.output);
+    let test = eng(fp.test_time, Dim::Time);
+    FitWords {
+        heading: "Fit reading (reading = \"fit\": `recover` fits the modes after the pulse and removes the pulse \
+                  exactly, so noise, not width, limits it)"
+            .into(),
+        summary: summary_lines(fp, &u, &test),
+        intervals: interval_cells(fp, &u),
+        compare_heading: format!(
+            "The same budget side by side (raw/aligned plans read by the {} error they were planned for{}; bias + \
+             95 % noise)",
+            sc.plan.metric.name(),
+            match fp.quantity {
+                FitQuantity::TimeConstants => ", the nearest a raw reading has to a time constant",
+                _ => "",
+            }
+        ),
+        columns: [
+            "plan".into(),
+            "reading".into(),
+            "width".into(),
+            "amplitude".into(),
+            "bias".into(),
+            "noise per acquisition".into(),
+            "averages for the budget".into(),
+            format!("interval at {test}"),
+        ],
+        rows: comparison_rows(fp, sc),
+        verdict: verdict_text(fp),
+    }
+}
+
+/// The summary: the budget and noise, the plan's averages and prediction, the longest test.
+fn summary_lines(fp: &FitPlan, u: &Units, test: &str) -> Vec<String> {
     let budget_source = if fp.budget_stated {
         "[plan] target_error"
     } else {
         "the default, no target_error given"
     };
-    let test = eng(fp.test_time, Dim::Time);
     let mut summary = vec![
         format!(
             "budget {} ({budget_source}) on the 95 % interval of {}; output noise {} RMS per acquisition ([capture] noise)",
@@ -127,9 +159,13 @@ pub fn fit_words(fp: &FitPlan, sc: &Scenario) -> FitWords {
             eng(t, Dim::Time)
         ));
     }
+    summary
+}
+
+/// One row per plan of the comparison.
+fn comparison_rows(fp: &FitPlan, sc: &Scenario) -> Vec<[String; 8]> {
     let dim = sc.drive.dim();
-    let rows = fp
-        .comparison
+    fp.comparison
         .iter()
         .map(|r| {
             [
@@ -153,7 +189,11 @@ pub fn fit_words(fp: &FitPlan, sc: &Scenario) -> FitWords {
                 format!("±{}", percent_unsigned(r.at_equal_time)),
             ]
         })
-        .collect();
+        .collect()
+}
+
+/// What the comparison says: how much narrower or cheaper the fit plan is, or why not.
+fn verdict_text(fp: &FitPlan) -> String {
     let mut verdict = format!(
         "at equal test time the fit plan's interval is {}× narrower than the budget plan's",
         ratio_text(fp.narrower_interval)
@@ -172,32 +212,5 @@ pub fn fit_words(fp: &FitPlan, sc: &Scenario) -> FitWords {
              hold the wide pulse's amplitude down",
         );
     }
-    FitWords {
-        heading: "Fit reading (reading = \"fit\": `recover` fits the modes after the pulse and removes the pulse \
-                  exactly, so noise, not width, limits it)"
-            .into(),
-        summary,
-        intervals: interval_cells(fp, &u),
-        compare_heading: format!(
-            "The same budget side by side (raw/aligned plans read by the {} error they were planned for{}; bias + \
-             95 % noise)",
-            sc.plan.metric.name(),
-            match fp.quantity {
-                FitQuantity::TimeConstants => ", the nearest a raw reading has to a time constant",
-                _ => "",
-            }
-        ),
-        columns: [
-            "plan".into(),
-            "reading".into(),
-            "width".into(),
-            "amplitude".into(),
-            "bias".into(),
-            "noise per acquisition".into(),
-            "averages for the budget".into(),
-            format!("interval at {test}"),
-        ],
-        rows,
-        verdict,
-    }
+    verdict
 }

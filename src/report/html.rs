@@ -5,7 +5,7 @@ use super::figures::Figure;
 use super::markup::escape;
 use super::words::{self, Context, Units};
 use crate::bench::BenchPlan;
-use crate::estimate::{ErrorEstimate, NormalisedBy};
+use crate::estimate::{ErrorEstimate, NormalisedBy, Reading};
 use crate::network::{Network, NetworkSpec};
 use crate::notice::Note;
 use crate::notice::Warning;
@@ -251,30 +251,8 @@ fn tolerance_html(s: &mut String, out: &PlanOutcome, u: &Units) {
         "<section><h2>Tolerances</h2><p class=\"note\">{}</p><table><thead><tr><th>quantity</th><th>nominal</th><th>min</th><th>max</th></tr></thead><tbody>",
         escape(&how)
     );
-    for (name, sp) in [
-        ("fastest significant τ", &t.tau_fast),
-        ("slowest time constant", &t.tau_slow),
-    ] {
-        row(
-            s,
-            name,
-            &[
-                eng(sp.nominal, Dim::Time),
-                eng(sp.min, Dim::Time),
-                eng(sp.max, Dim::Time),
-            ],
-        );
-    }
-    if t.h0.nominal != 0.0 {
-        row(
-            s,
-            "h(0⁺)",
-            &[
-                u.h_value(t.h0.nominal),
-                u.h_value(t.h0.min),
-                u.h_value(t.h0.max),
-            ],
-        );
+    for (name, cells) in super::tables::tolerance_rows(t, u) {
+        row(s, name, &cells);
     }
     let _ = writeln!(s, "</tbody></table>");
     if !t.sensitivities.is_empty() {
@@ -404,83 +382,55 @@ fn pulses_table(s: &mut String, cols: &[(&str, &Trapezoid)], run: f64, drive: Si
     let _ = writeln!(s, "</tbody></table>");
 }
 
+/// The error table: exact signed figures for known residues, else one row per mode.
 fn errors_table(s: &mut String, e: &ErrorEstimate, u: &Units) {
+    if e.per_mode.is_empty() {
+        exact_errors_table(s, e, u);
+    } else {
+        per_mode_errors_table(s, e);
+    }
+}
+
+/// The exact readings, ideals, errors and first-order estimates of t0, t0-aligned and the window.
+fn exact_errors_table(s: &mut String, e: &ErrorEstimate, u: &Units) {
     let norm = match e.normalised_by {
         NormalisedBy::H0Plus => "|h(0⁺)|",
         NormalisedBy::Peak => "the peak |h| (h(0⁺) = 0)",
         NormalisedBy::EachMode => "each mode's own h(0⁺)",
     };
-    if e.per_mode.is_empty() {
-        let _ = writeln!(
-            s,
-            "<p class=\"note\">Exact figures, signed, relative to {} = {}.</p>",
-            escape(norm),
-            escape(&u.h_value(e.normaliser))
-        );
-        let _ = writeln!(
-            s,
-            "<table><thead><tr><th>metric</th><th>reading y/area</th><th>ideal</th><th>error</th>\
-             <th>first-order estimate</th></tr></thead><tbody>"
-        );
-        let _ = writeln!(
-            s,
-            "<tr><th>t0 (raw): y(end)/area vs h(0⁺)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-             <td class=\"num\">{}</td><td class=\"num\">{}</td></tr>",
-            escape(&u.h_value(e.t0.reading)),
-            escape(&u.h_value(e.t0.ideal)),
-            escape(&words::relative(e.t0.rel, e.floor)),
-            escape(&words::first_order_text(
-                e.first_order.t0_rel,
-                e.first_order.t0_floor
-            ))
-        );
-        let _ = writeln!(
-            s,
-            "<tr><th>t0-aligned: vs h(end − centroid)</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-             <td class=\"num\">{}</td><td class=\"num\">{} (½σ²h″)</td></tr>",
-            escape(&u.h_value(e.t0_aligned.reading)),
-            escape(&u.h_value(e.t0_aligned.ideal)),
-            escape(&words::relative(e.t0_aligned.rel, e.floor)),
-            escape(&words::first_order_text(
-                e.first_order.t0_aligned_rel,
-                e.first_order.t0_aligned_floor
-            ))
-        );
-    } else {
-        let _ = writeln!(
-            s,
-            "<p class=\"note\">Residues unknown: each mode e<sup>−t/τ</sup> is assessed on its own, \
-             relative to its own h(0⁺); the worst mode leads each metric.</p>"
-        );
-        let _ = writeln!(
-            s,
-            "<table><thead><tr><th>mode τ</th><th>raw at 0⁺</th><th>aligned</th><th>window max</th>\
-             <th>window RMS</th></tr></thead><tbody>"
-        );
-        for m in &e.per_mode {
-            let _ = writeln!(
-                s,
-                "<tr><th>{}</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-                 <td class=\"num\">{}</td></tr>",
-                escape(&eng(m.time_constant, Dim::Time)),
-                escape(&words::relative(m.t0_rel, m.estimate.floor)),
-                escape(&words::relative(m.t0_aligned_rel, m.estimate.floor)),
-                escape(&percent_unsigned(m.window_max_rel)),
-                escape(&percent_unsigned(m.window_rms_rel))
-            );
-        }
-        let _ = writeln!(
-            s,
-            "<tr><th>worst mode</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
-             <td class=\"num\">{}</td></tr>",
-            escape(&words::relative(e.t0.rel, e.floor)),
-            escape(&words::relative(e.t0_aligned.rel, e.floor)),
-            escape(&percent_unsigned(e.window.max_rel)),
-            escape(&percent_unsigned(e.window.rms_rel))
-        );
-        let _ = writeln!(s, "</tbody></table>");
-        return;
-    }
+    let _ = writeln!(
+        s,
+        "<p class=\"note\">Exact figures, signed, relative to {} = {}.</p>",
+        escape(norm),
+        escape(&u.h_value(e.normaliser))
+    );
+    let _ = writeln!(
+        s,
+        "<table><thead><tr><th>metric</th><th>reading y/area</th><th>ideal</th><th>error</th>\
+         <th>first-order estimate</th></tr></thead><tbody>"
+    );
+    let t0_first = words::first_order_text(e.first_order.t0_rel, e.first_order.t0_floor);
+    exact_row(
+        s,
+        "t0 (raw): y(end)/area vs h(0⁺)",
+        &e.t0,
+        e.floor,
+        u,
+        &t0_first,
+        "",
+    );
+    let aligned_first =
+        words::first_order_text(e.first_order.t0_aligned_rel, e.first_order.t0_aligned_floor);
+    let head = "t0-aligned: vs h(end − centroid)";
+    exact_row(
+        s,
+        head,
+        &e.t0_aligned,
+        e.floor,
+        u,
+        &aligned_first,
+        " (½σ²h″)",
+    );
     let _ = writeln!(
         s,
         "<tr><th>window: y(t)/area vs h(t − c), end ≤ t ≤ run</th><td colspan=\"2\">maximum at {}</td>\
@@ -492,8 +442,78 @@ fn errors_table(s: &mut String, e: &ErrorEstimate, u: &Units) {
     let _ = writeln!(s, "</tbody></table>");
 }
 
+/// One reading's row of the exact table: reading, ideal, error and first-order estimate
+/// (followed by `basis`, the estimate's term).
+fn exact_row(
+    s: &mut String,
+    head: &str,
+    r: &Reading,
+    floor: f64,
+    u: &Units,
+    first_order: &str,
+    basis: &str,
+) {
+    let _ = writeln!(
+        s,
+        "<tr><th>{head}</th><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+         <td class=\"num\">{}</td><td class=\"num\">{}{basis}</td></tr>",
+        escape(&u.h_value(r.reading)),
+        escape(&u.h_value(r.ideal)),
+        escape(&words::relative(r.rel, floor)),
+        escape(first_order)
+    );
+}
+
+/// Residues unknown: each mode's errors on its own, and the worst mode.
+fn per_mode_errors_table(s: &mut String, e: &ErrorEstimate) {
+    let _ = writeln!(
+        s,
+        "<p class=\"note\">Residues unknown: each mode e<sup>−t/τ</sup> is assessed on its own, \
+         relative to its own h(0⁺); the worst mode leads each metric.</p>"
+    );
+    let _ = writeln!(
+        s,
+        "<table><thead><tr><th>mode τ</th><th>raw at 0⁺</th><th>aligned</th><th>window max</th>\
+         <th>window RMS</th></tr></thead><tbody>"
+    );
+    for m in &e.per_mode {
+        let _ = writeln!(
+            s,
+            "<tr><th>{}</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+             <td class=\"num\">{}</td></tr>",
+            escape(&eng(m.time_constant, Dim::Time)),
+            escape(&words::relative(m.t0_rel, m.estimate.floor)),
+            escape(&words::relative(m.t0_aligned_rel, m.estimate.floor)),
+            escape(&percent_unsigned(m.window_max_rel)),
+            escape(&percent_unsigned(m.window_rms_rel))
+        );
+    }
+    let _ = writeln!(
+        s,
+        "<tr><th>worst mode</th><td class=\"num\">{}</td><td class=\"num\">{}</td><td class=\"num\">{}</td>\
+         <td class=\"num\">{}</td></tr>",
+        escape(&words::relative(e.t0.rel, e.floor)),
+        escape(&words::relative(e.t0_aligned.rel, e.floor)),
+        escape(&percent_unsigned(e.window.max_rel)),
+        escape(&percent_unsigned(e.window.rms_rel))
+    );
+    let _ = writeln!(s, "</tbody></table>");
+}
+
 fn budget_text(sc: &Scenario, out: &PlanOutcome) -> String {
     words::budget_text(out.budget.as_ref(), &sc.plan)
+}
+
+/// One list item per warning: its code and its sentence.
+fn warning_items(s: &mut String, ws: &[&Warning], cx: &Context) {
+    for w in ws {
+        let _ = writeln!(
+            s,
+            "<li><code>{}</code> {}</li>",
+            escape(w.code()),
+            escape(&words::warning_text(w, cx))
+        );
+    }
 }
 
 fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
@@ -502,14 +522,7 @@ fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
         .partition(|w| w.severity() == crate::notice::Severity::Act);
     if !info.is_empty() {
         let _ = writeln!(s, "<h3>Notes</h3><ul class=\"notes\">");
-        for w in info {
-            let _ = writeln!(
-                s,
-                "<li><code>{}</code> {}</li>",
-                escape(w.code()),
-                escape(&words::warning_text(w, cx))
-            );
-        }
+        warning_items(s, &info, cx);
         let _ = writeln!(s, "</ul>");
     }
     if act.is_empty() {
@@ -517,14 +530,7 @@ fn warnings_html(s: &mut String, ws: &[Warning], cx: &Context) {
         return;
     }
     let _ = writeln!(s, "<ul class=\"warnings\">");
-    for w in act {
-        let _ = writeln!(
-            s,
-            "<li><code>{}</code> {}</li>",
-            escape(w.code()),
-            escape(&words::warning_text(w, cx))
-        );
-    }
+    warning_items(s, &act, cx);
     let _ = writeln!(s, "</ul>");
 }
 
@@ -562,15 +568,20 @@ pub fn inline_svg(svg: &str) -> String {
     s
 }
 
+/// The network's sections: its modes, its facts and its time scales.
+fn network_sections(s: String, sc: &Scenario, prep: &Prepared) -> String {
+    let s = network_html(s, sc, prep);
+    let s = network_facts_html(s, sc, prep);
+    time_scales_html(s, sc, prep)
+}
+
 /// The HTML report for `plan`, with the given figures inlined in order.
 pub fn plan_html(sc: &Scenario, out: &PlanOutcome, figures: &[Figure]) -> String {
     let mut s = String::with_capacity(64 * 1024);
     let prep = &out.prep;
     s = head_html(s, sc, "pulse plan");
     s = summary_html(s, sc, out);
-    s = network_html(s, sc, prep);
-    s = network_facts_html(s, sc, prep);
-    s = time_scales_html(s, sc, prep);
+    s = network_sections(s, sc, prep);
     s = plan_section_html(s, sc, out);
     let u = Units::of(sc.drive, sc.output);
     bench_html(&mut s, sc, &out.bench, &out.notes);
@@ -593,9 +604,7 @@ pub fn assess_html(sc: &Scenario, out: &AssessOutcome, figures: &[Figure]) -> St
     let mut s = String::with_capacity(64 * 1024);
     let prep = &out.prep;
     s = head_html(s, sc, "pulse assessed");
-    s = network_html(s, sc, prep);
-    s = network_facts_html(s, sc, prep);
-    s = time_scales_html(s, sc, prep);
+    s = network_sections(s, sc, prep);
     let _ = writeln!(
         s,
         "<section><h2>Pulse assessed ([pulse], {})</h2>",

@@ -30,7 +30,6 @@ pub(crate) fn mode_cells(
     [residues, tau, zeta]
 }
 
-/// The bench summary as (label, sentence) pairs, shared by the text and HTML reports.
 /// The bench summary as (label, sentence) pairs plus the notes still to print, shared by the
 /// text and HTML reports. The noise notes (the bench's and the plan's choice of width) are
 /// merged into one "noise" line: the width the plan uses, why, and the others as context.
@@ -68,11 +67,22 @@ pub(crate) fn bench_summary(
     (lines, rest)
 }
 
+/// The bench lines: the amplitude's, then the timing's.
 fn bench_lines(
     sc: &crate::scenario::Scenario,
     b: &crate::bench::BenchPlan,
 ) -> Vec<(&'static str, String)> {
-    use crate::units::{eng_plain, percent_unsigned, plain};
+    let mut lines = amplitude_lines(sc, b);
+    lines.extend(timing_lines(b));
+    lines
+}
+
+/// The generator display setting, the pulse's area and read factor, and the peaks.
+fn amplitude_lines(
+    sc: &crate::scenario::Scenario,
+    b: &crate::bench::BenchPlan,
+) -> Vec<(&'static str, String)> {
+    use crate::units::{eng_plain, plain};
     let dim = sc.drive.dim();
     let a = &b.amplitude;
     let mut lines = Vec::new();
@@ -111,6 +121,13 @@ fn bench_lines(
             u.output_value(a.output_extreme)
         ),
     ));
+    lines
+}
+
+/// The repetition period, the capture settings and the split records when memory is short.
+fn timing_lines(b: &crate::bench::BenchPlan) -> Vec<(&'static str, String)> {
+    use crate::units::percent_unsigned;
+    let mut lines = Vec::new();
     lines.push((
         "period",
         match &b.period {
@@ -149,6 +166,36 @@ fn bench_lines(
         ));
     }
     lines
+}
+
+/// The tolerance spreads as (quantity, [nominal, min, max]) cells: the fastest significant and
+/// slowest time constants, and h(0⁺) when it is not zero.
+pub(crate) fn tolerance_rows(
+    t: &crate::tolerance::ToleranceReport,
+    u: &super::words::Units,
+) -> Vec<(&'static str, [String; 3])> {
+    let time = |sp: &crate::tolerance::Spread| {
+        [
+            eng(sp.nominal, Dim::Time),
+            eng(sp.min, Dim::Time),
+            eng(sp.max, Dim::Time),
+        ]
+    };
+    let mut rows = vec![
+        ("fastest significant τ", time(&t.tau_fast)),
+        ("slowest time constant", time(&t.tau_slow)),
+    ];
+    if t.h0.nominal != 0.0 {
+        rows.push((
+            "h(0⁺)",
+            [
+                u.h_value(t.h0.nominal),
+                u.h_value(t.h0.min),
+                u.h_value(t.h0.max),
+            ],
+        ));
+    }
+    rows
 }
 
 /// Where the pulse's level applies: at the circuit's input, or, for a circuit driven through a

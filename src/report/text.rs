@@ -31,7 +31,14 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared, u: &Units) {
         "ζ",
         "share"
     );
-    // Long tables keep the significant modes and summarise the rest.
+    mode_rows(s, net, prep);
+    network_terms(s, net, prep, u);
+    time_scales(s, net, prep);
+}
+
+/// One row per mode (a long table keeps the significant modes and summarises the rest), and
+/// the note on the share column.
+fn mode_rows(s: &mut String, net: &Network, prep: &Prepared) {
     let long = net.modes.len() > 24;
     let mut hidden = 0usize;
     let mut hidden_share = 0.0f64;
@@ -76,6 +83,10 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared, u: &Units) {
             "  share: the mode's part of Σ|r|/|Re p| (its bound on ∫|h|); ° below the significance threshold"
         );
     }
+}
+
+/// The zeros, the direct and improper terms, h(0⁺) both ways and the peak of |h|.
+fn network_terms(s: &mut String, net: &Network, prep: &Prepared, u: &Units) {
     if !net.zeros.is_empty() {
         let zs: Vec<String> = net.zeros.iter().map(|&z| pole_text(z)).collect();
         let _ = writeln!(s, "  zeros [rad/s]: {}", zs.join(", "));
@@ -119,6 +130,10 @@ fn network_text(s: &mut String, net: &Network, prep: &Prepared, u: &Units) {
             "  residues unknown: each mode is taken as e^(−t/τ) and errors are per mode"
         );
     }
+}
+
+/// The fastest, planned and slowest time scales, the settling time and stability.
+fn time_scales(s: &mut String, net: &Network, prep: &Prepared) {
     let _ = writeln!(
         s,
         "  fastest time scale     {}   (1/max|p|)",
@@ -266,25 +281,10 @@ fn tolerance_text(s: &mut String, out: &PlanOutcome, u: &Units) {
         }
     };
     let _ = writeln!(s, "Tolerances ({how})");
-    let row = |s: &mut String, name: &str, sp: &crate::tolerance::Spread, dim: Dim| {
+    for (name, [nominal, min, max]) in super::tables::tolerance_rows(t, u) {
         let _ = writeln!(
             s,
-            "  {name:<28} nominal {:>12}   range {} … {}",
-            eng(sp.nominal, dim),
-            eng(sp.min, dim),
-            eng(sp.max, dim)
-        );
-    };
-    row(s, "fastest significant τ", &t.tau_fast, Dim::Time);
-    row(s, "slowest time constant", &t.tau_slow, Dim::Time);
-    if t.h0.nominal != 0.0 {
-        let _ = writeln!(
-            s,
-            "  {:<28} nominal {:>12}   range {} … {}",
-            "h(0⁺)",
-            u.h_value(t.h0.nominal),
-            u.h_value(t.h0.min),
-            u.h_value(t.h0.max)
+            "  {name:<28} nominal {nominal:>12}   range {min} … {max}"
         );
     }
     if t.sensitivities.is_empty() {
@@ -380,13 +380,19 @@ fn header(s: &mut String, sc: &Scenario, verb: &str) {
     let _ = writeln!(s);
 }
 
-/// Text report for `plan`.
-pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
+/// The report's opening: its header and the network section, and the units it is read in.
+fn opening(sc: &Scenario, command: &str, prep: &Prepared) -> (String, Units) {
     let mut s = String::new();
     let u = Units::of(sc.drive, sc.output);
-    header(&mut s, sc, "plan");
-    network_text(&mut s, &sc.network, &out.prep, &u);
+    header(&mut s, sc, command);
+    network_text(&mut s, &sc.network, prep, &u);
     let _ = writeln!(s);
+    (s, u)
+}
+
+/// Text report for `plan`.
+pub fn plan_text(sc: &Scenario, out: &PlanOutcome, cs: &[Cursor]) -> String {
+    let (mut s, u) = opening(sc, "plan", &out.prep);
     let rule_heading = format!(
         "Rule of thumb (common practice, no source): width = fastest significant time scale/{}, edges = width/{}",
         sc.plan.width_ratio, sc.plan.edge_ratio
@@ -497,11 +503,7 @@ fn budget_text(s: &mut String, sc: &Scenario, out: &PlanOutcome) {
 
 /// Text report for `assess`.
 pub fn assess_text(sc: &Scenario, out: &AssessOutcome, cs: &[Cursor]) -> String {
-    let mut s = String::new();
-    let u = Units::of(sc.drive, sc.output);
-    header(&mut s, sc, "assess");
-    network_text(&mut s, &sc.network, &out.prep, &u);
-    let _ = writeln!(s);
+    let (mut s, u) = opening(sc, "assess", &out.prep);
     let heading = format!(
         "Pulse assessed ([pulse], {})",
         super::tables::pulse_place(sc)

@@ -177,9 +177,17 @@ fn pulse_warning(w: &Warning, cx: &Context) -> Option<String> {
     })
 }
 
+/// A bench warning (or a fit warning), worded.
 fn bench_warning(w: &Warning, cx: &Context) -> String {
-    let dim = cx.drive.dim();
-    match w {
+    amplitude_warning(w, cx.drive.dim())
+        .or_else(|| record_warning(w))
+        .or_else(|| fit_warning(w))
+        .unwrap_or_else(|| w.code().to_string())
+}
+
+/// The generator's and the circuit's limits on amplitude, width, output range and timing.
+fn amplitude_warning(w: &Warning, dim: Dim) -> Option<String> {
+    Some(match w {
         Warning::AmplitudeExceedsLimit {
             amplitude, limit, ..
         } => format!(
@@ -209,6 +217,13 @@ fn bench_warning(w: &Warning, cx: &Context) -> String {
             percent_unsigned(*after),
             percent_unsigned(*budget)
         ),
+        _ => return None,
+    })
+}
+
+/// Noise, averages, repetition period and capture memory and rate.
+fn record_warning(w: &Warning) -> Option<String> {
+    Some(match w {
         Warning::NoiseBudgetUnreachable { bias, budget } => format!(
             "the pulse's bias alone ({}) uses the whole {} budget: no averaging can help",
             percent_unsigned(*bias),
@@ -255,8 +270,8 @@ fn bench_warning(w: &Warning, cx: &Context) -> String {
             "at the highest sample rate only {samples:.1} samples fall across the {} pulse",
             eng(*width, Dim::Time)
         ),
-        other => fit_warning(other).unwrap_or_else(|| other.code().to_string()),
-    }
+        _ => return None,
+    })
 }
 
 /// Why the fit's bounds cannot be given, worded.
@@ -349,7 +364,15 @@ fn fit_warning(w: &Warning) -> Option<String> {
 
 /// The sentence for a note.
 pub fn note_text(n: &Note, drive: Signal) -> String {
-    match n {
+    pulse_note(n, drive)
+        .or_else(|| record_note(n))
+        .or_else(|| fit_note(n))
+        .unwrap_or_else(|| n.code().to_string())
+}
+
+/// Notes on the pulse: tolerance corners, the generator's timing, the area planned down.
+fn pulse_note(n: &Note, drive: Signal) -> Option<String> {
+    Some(match n {
         Note::TooManyCorners { parts } => format!(
             "{parts} parts carry tolerances, too many for corners: give --samples N for a Monte Carlo spread"
         ),
@@ -383,6 +406,13 @@ pub fn note_text(n: &Note, drive: Signal) -> String {
                 .join("; "),
             eng_plain(*read_factor, 4)
         ),
+        _ => return None,
+    })
+}
+
+/// Notes on the record: noise, record memory, two records.
+fn record_note(n: &Note) -> Option<String> {
+    Some(match n {
         Note::NoiseAtPulse {
             noise,
             bias,
@@ -412,6 +442,13 @@ pub fn note_text(n: &Note, drive: Signal) -> String {
             eng(*fine_length, Dim::Time),
             eng(*coarse_interval, Dim::Time)
         ),
+        _ => return None,
+    })
+}
+
+/// Notes on the fit reading's plan.
+fn fit_note(n: &Note) -> Option<String> {
+    Some(match n {
         Note::FitDirectTerm { direct } => format!(
             "h(t) holds a direct term {}·δ(t): it is not a mode, so this plan does not bound it; `recover` estimates it \
              from the samples during the pulse",
@@ -428,7 +465,8 @@ pub fn note_text(n: &Note, drive: Signal) -> String {
             eng(*width, Dim::Time),
             eng(*bias_width, Dim::Time)
         ),
-    }
+        _ => return None,
+    })
 }
 
 /// The run length's basis, worded.

@@ -152,6 +152,8 @@ fn part_kind(
     let value = |dim: Dim| need_qty(rd, &span, &key("value"), &p.value, dim);
     let gain = |dim: Dim| need_qty(rd, &span, &key("gain"), &p.gain, dim);
     let nodes = || pair(rd, &span, &key("nodes"), &p.nodes);
+    let control = || pair(rd, &span, &key("control"), &p.control);
+    let sense = || need_str(rd, &span, &key("sense"), &p.sense);
     let kind = match kind_text {
         "resistor" => PartKind::Resistor {
             nodes: nodes()?,
@@ -186,22 +188,22 @@ fn part_kind(
         },
         "vcvs" => PartKind::Vcvs {
             nodes: nodes()?,
-            control: pair(rd, &span, &key("control"), &p.control)?,
+            control: control()?,
             gain: gain(Dim::Number)?,
         },
         "vccs" => PartKind::Vccs {
             nodes: nodes()?,
-            control: pair(rd, &span, &key("control"), &p.control)?,
+            control: control()?,
             gain: gain(Dim::Conductance)?,
         },
         "cccs" => PartKind::Cccs {
             nodes: nodes()?,
-            sense: need_str(rd, &span, &key("sense"), &p.sense)?,
+            sense: sense()?,
             gain: gain(Dim::Number)?,
         },
         "ccvs" => PartKind::Ccvs {
             nodes: nodes()?,
-            sense: need_str(rd, &span, &key("sense"), &p.sense)?,
+            sense: sense()?,
             gain: gain(Dim::Resistance)?,
         },
         other => {
@@ -262,6 +264,23 @@ pub(crate) fn netlist_spec(
         )
     })?;
     not_zero_ground(rd, &input.span(), "network.input", input.get_ref())?;
+    let out = netlist_output(rd, output)?;
+    let parts = netlist_parts(rd, net_span, c.parts)?;
+    let source_resistance = source_resistance(rd, c.source_resistance, generator_resistance)?;
+    Ok(NetlistSpec {
+        input: input.get_ref().clone(),
+        output: out,
+        source_resistance,
+        stimulus: match drive {
+            Signal::Voltage => Stimulus::Voltage,
+            Signal::Current => Stimulus::Current,
+        },
+        parts,
+    })
+}
+
+/// The output: a node, two nodes, or a part's current (no node named "0").
+fn netlist_output(rd: &Reader, output: &Spanned<RawOutput>) -> Result<Output, ScenarioError> {
     let named: Vec<&String> = match output.get_ref() {
         RawOutput::Node(n) => vec![n],
         RawOutput::Pair(v) => v.iter().collect(),
@@ -270,7 +289,7 @@ pub(crate) fn netlist_spec(
     for n in named {
         not_zero_ground(rd, &output.span(), "network.output", n)?;
     }
-    let out = match output.get_ref() {
+    Ok(match output.get_ref() {
         RawOutput::Node(n) => Output::Node(n.clone()),
         RawOutput::Pair(v) if v.len() == 2 => Output::Differential(v[0].clone(), v[1].clone()),
         RawOutput::Pair(v) => {
@@ -281,9 +300,16 @@ pub(crate) fn netlist_spec(
             ));
         }
         RawOutput::Through { current_through } => Output::CurrentThrough(current_through.clone()),
-    };
-    let parts_l = c
-        .parts
+    })
+}
+
+/// The parts: present, at most [`MAX_PARTS`], each read, not empty.
+fn netlist_parts(
+    rd: &Reader,
+    net_span: &std::ops::Range<usize>,
+    parts: Option<&Spanned<Vec<Spanned<RawPart>>>>,
+) -> Result<Vec<Part>, ScenarioError> {
+    let parts_l = parts
         .ok_or_else(|| rd.err(Some(net_span), "network.parts", "a netlist needs its parts"))?;
     if parts_l.get_ref().len() > MAX_PARTS {
         return Err(rd.err(
@@ -304,39 +330,37 @@ pub(crate) fn netlist_spec(
     if parts.is_empty() {
         return Err(rd.err(Some(&parts_l.span()), "network.parts", "is empty"));
     }
-    let source_resistance = match (c.source_resistance, generator_resistance) {
-        (Some(q), g) => {
-            let v = rd.number(q, "network.source_resistance", Dim::Resistance)?;
-            if v < 0.0 {
-                return Err(rd.err(
-                    Some(&q.span()),
-                    "network.source_resistance",
-                    "must not be negative",
-                ));
-            }
-            if let Some(g) = g.filter(|&g| (g - v).abs() > 1e-9 * v.max(g)) {
-                return Err(rd.err(
-                    Some(&q.span()),
-                    "network.source_resistance",
-                    format!(
-                        "{} disagrees with [generator] output_resistance ({}); they describe the same resistance, give one",
-                        rd.shown(q),
-                        crate::units::eng(g, Dim::Resistance)
-                    ),
-                ));
-            }
-            Some(v)
-        }
-        (None, g) => g,
+    Ok(parts)
+}
+
+/// The source resistance: stated (not negative, agreeing with the generator's output
+/// resistance when both are given) or the generator's.
+fn source_resistance(
+    rd: &Reader,
+    stated: Option<&SQty>,
+    generator_resistance: Option<f64>,
+) -> Result<Option<f64>, ScenarioError> {
+    let Some(q) = stated else {
+        return Ok(generator_resistance);
     };
-    Ok(NetlistSpec {
-        input: input.get_ref().clone(),
-        output: out,
-        source_resistance,
-        stimulus: match drive {
-            Signal::Voltage => Stimulus::Voltage,
-            Signal::Current => Stimulus::Current,
-        },
-        parts,
-    })
+    let v = rd.number(q, "network.source_resistance", Dim::Resistance)?;
+    if v < 0.0 {
+        return Err(rd.err(
+            Some(&q.span()),
+            "network.source_resistance",
+            "must not be negative",
+        ));
+    }
+    if let Some(g) = generator_resistance.filter(|&g| (g - v).abs() > 1e-9 * v.max(g)) {
+        return Err(rd.err(
+            Some(&q.span()),
+            "network.source_resistance",
+            format!(
+                "{} disagrees with [generator] output_resistance ({}); they describe the same resistance, give one",
+                rd.shown(q),
+                crate::units::eng(g, Dim::Resistance)
+            ),
+        ));
+    }
+    Ok(Some(v))
 }

@@ -82,90 +82,11 @@ pub(crate) fn bench(
 ) -> Result<Bench, ScenarioError> {
     let generator = generator
         .as_ref()
-        .map(
-            |g: &Spanned<RawGenerator>| -> Result<Generator, ScenarioError> {
-                let g = g.get_ref();
-                let gen_ = Generator {
-                    max_amplitude: opt(
-                        rd,
-                        &g.max_amplitude,
-                        "generator.max_amplitude",
-                        drive.dim(),
-                    )?,
-                    min_width: opt(rd, &g.min_width, "generator.min_width", Dim::Time)?,
-                    min_edge: opt(rd, &g.min_edge, "generator.min_edge", Dim::Time)?,
-                    max_edge: opt(rd, &g.max_edge, "generator.max_edge", Dim::Time)?,
-                    time_step: opt(rd, &g.time_step, "generator.time_step", Dim::Time)?,
-                    max_period: opt(rd, &g.max_period, "generator.max_period", Dim::Time)?,
-                    output_resistance: g
-                        .output_resistance
-                        .as_ref()
-                        .map(|q| {
-                            let v = rd.number(q, "generator.output_resistance", Dim::Resistance)?;
-                            if v < 0.0 {
-                                return Err(rd.err(
-                                    Some(&q.span()),
-                                    "generator.output_resistance",
-                                    "must not be negative",
-                                ));
-                            }
-                            Ok(v)
-                        })
-                        .transpose()?,
-                    load_setting: g
-                        .load_setting
-                        .as_ref()
-                        .map(|q| load_setting(rd, q))
-                        .transpose()?,
-                };
-                if let (Some(lo), Some(hi), Some(q)) = (gen_.min_edge, gen_.max_edge, &g.max_edge)
-                    && lo > hi
-                {
-                    return Err(rd.err(
-                        Some(&q.span()),
-                        "generator.max_edge",
-                        "is shorter than min_edge",
-                    ));
-                }
-                Ok(gen_)
-            },
-        )
+        .map(|g| generator_section(rd, g.get_ref(), drive))
         .transpose()?;
     let capture = capture
         .as_ref()
-        .map(|c| -> Result<Capture, ScenarioError> {
-            let c = c.get_ref();
-            let cap = Capture {
-                noise: output_quantity(rd, &c.noise, "capture.noise")?,
-                max_sample_rate: opt(
-                    rd,
-                    &c.max_sample_rate,
-                    "capture.max_sample_rate",
-                    Dim::Frequency,
-                )?,
-                max_points: opt(rd, &c.max_points, "capture.max_points", Dim::Number)?,
-                max_averages: opt(rd, &c.max_averages, "capture.max_averages", Dim::Number)?,
-            };
-            if let (Some(p), Some(q)) = (cap.max_points, &c.max_points)
-                && !(2.0..=MAX_CAPTURE_POINTS).contains(&p)
-            {
-                return Err(rd.err(
-                    Some(&q.span()),
-                    "capture.max_points",
-                    format!("must be between 2 and {MAX_CAPTURE_POINTS:e}"),
-                ));
-            }
-            if let (Some(a), Some(q)) = (cap.max_averages, &c.max_averages)
-                && !(1.0..=MAX_AVERAGES).contains(&a)
-            {
-                return Err(rd.err(
-                    Some(&q.span()),
-                    "capture.max_averages",
-                    format!("must be between 1 and {MAX_AVERAGES:e}"),
-                ));
-            }
-            Ok(cap)
-        })
+        .map(|c| capture_section(rd, c.get_ref()))
         .transpose()?;
     let limits = limits
         .as_ref()
@@ -182,4 +103,104 @@ pub(crate) fn bench(
         capture,
         limits,
     })
+}
+
+/// The `[generator]` section: its limits, output resistance and load setting, with
+/// min_edge ≤ max_edge.
+fn generator_section(
+    rd: &Reader,
+    g: &RawGenerator,
+    drive: Signal,
+) -> Result<Generator, ScenarioError> {
+    let gen_ = Generator {
+        max_amplitude: opt(rd, &g.max_amplitude, "generator.max_amplitude", drive.dim())?,
+        min_width: opt(rd, &g.min_width, "generator.min_width", Dim::Time)?,
+        min_edge: opt(rd, &g.min_edge, "generator.min_edge", Dim::Time)?,
+        max_edge: opt(rd, &g.max_edge, "generator.max_edge", Dim::Time)?,
+        time_step: opt(rd, &g.time_step, "generator.time_step", Dim::Time)?,
+        max_period: opt(rd, &g.max_period, "generator.max_period", Dim::Time)?,
+        output_resistance: g
+            .output_resistance
+            .as_ref()
+            .map(|q| {
+                let v = rd.number(q, "generator.output_resistance", Dim::Resistance)?;
+                if v < 0.0 {
+                    return Err(rd.err(
+                        Some(&q.span()),
+                        "generator.output_resistance",
+                        "must not be negative",
+                    ));
+                }
+                Ok(v)
+            })
+            .transpose()?,
+        load_setting: g
+            .load_setting
+            .as_ref()
+            .map(|q| load_setting(rd, q))
+            .transpose()?,
+    };
+    if let (Some(lo), Some(hi), Some(q)) = (gen_.min_edge, gen_.max_edge, &g.max_edge)
+        && lo > hi
+    {
+        return Err(rd.err(
+            Some(&q.span()),
+            "generator.max_edge",
+            "is shorter than min_edge",
+        ));
+    }
+    Ok(gen_)
+}
+
+/// The `[capture]` section: noise, sample rate, and the point and average counts in range.
+fn capture_section(rd: &Reader, c: &RawCapture) -> Result<Capture, ScenarioError> {
+    let cap = Capture {
+        noise: output_quantity(rd, &c.noise, "capture.noise")?,
+        max_sample_rate: opt(
+            rd,
+            &c.max_sample_rate,
+            "capture.max_sample_rate",
+            Dim::Frequency,
+        )?,
+        max_points: opt(rd, &c.max_points, "capture.max_points", Dim::Number)?,
+        max_averages: opt(rd, &c.max_averages, "capture.max_averages", Dim::Number)?,
+    };
+    count_in_range(
+        rd,
+        cap.max_points,
+        &c.max_points,
+        "capture.max_points",
+        2.0,
+        MAX_CAPTURE_POINTS,
+    )?;
+    count_in_range(
+        rd,
+        cap.max_averages,
+        &c.max_averages,
+        "capture.max_averages",
+        1.0,
+        MAX_AVERAGES,
+    )?;
+    Ok(cap)
+}
+
+/// Refuse a stated count outside `lo ..= hi`, naming the key at its line.
+fn count_in_range(
+    rd: &Reader,
+    value: Option<f64>,
+    q: &Option<SQty>,
+    key: &str,
+    lo: f64,
+    hi: f64,
+) -> Result<(), ScenarioError> {
+    if let (Some(v), Some(q)) = (value, q)
+        && !(lo..=hi).contains(&v)
+    {
+        return Err(rd.err(
+            Some(&q.span()),
+            key,
+            format!("must be between {lo} and {hi:e}"),
+        ));
+    }
+    Ok(())
 }

@@ -239,35 +239,73 @@ pub(crate) fn plan_settings(
         s.reading = reading(rd, r)?;
     }
     if let Some(m) = &p.metric {
-        if m.get_ref() == "tau" {
-            if s.reading != ReadingKind::Fit {
-                return Err(rd.err(
-                    Some(&m.span()),
-                    "plan.metric",
-                    "\"tau\" (the time constants' interval) is a figure of the modal fit: set reading = \"fit\" \
-                     in [plan], or use \"t0\", \"t0-aligned\" or \"window\"",
-                ));
-            }
-            s.fit_quantity = FitQuantity::TimeConstants;
-        } else {
-            s.metric_choice = MetricChoice::Given;
-            s.metric = metric(rd, m)?;
-        }
+        plan_metric(rd, m, &mut s)?;
     }
     if let Some(q) = &p.max_test_time {
-        let v = rd.number(q, "plan.max_test_time", Dim::Time)?;
-        if !(v > 0.0 && v <= MAX_TEST_TIME) {
+        s.max_test_time = Some(max_test_time(rd, q)?);
+    }
+    plan_ratios(rd, p, &mut s)?;
+    if let Some(q) = &p.samples {
+        s.samples = Some(whole(rd, q, "plan.samples", (1.0, MAX_SAMPLES))? as usize);
+    }
+    if let Some(q) = &p.seed {
+        s.seed = whole(rd, q, "plan.seed", (0.0, 2f64.powi(53)))? as u64;
+    }
+    if let Some(q) = &p.significance {
+        let v = rd.fraction(q, "plan.significance")?;
+        if !(0.0..1.0).contains(&v) {
             return Err(rd.err(
                 Some(&q.span()),
-                "plan.max_test_time",
-                format!(
-                    "{} is not a test length: give a positive time up to a week, e.g. \"10 s\"",
-                    rd.shown(q)
-                ),
+                "plan.significance",
+                "must be between 0 and 100 %",
             ));
         }
-        s.max_test_time = Some(v);
+        s.significance = v;
     }
+    Ok(s)
+}
+
+/// `metric`: "tau" (the fit's time constants, only with reading = "fit") or an error metric.
+fn plan_metric(
+    rd: &Reader,
+    m: &Spanned<String>,
+    s: &mut PlanSettings,
+) -> Result<(), ScenarioError> {
+    if m.get_ref() == "tau" {
+        if s.reading != ReadingKind::Fit {
+            return Err(rd.err(
+                Some(&m.span()),
+                "plan.metric",
+                "\"tau\" (the time constants' interval) is a figure of the modal fit: set reading = \"fit\" \
+                 in [plan], or use \"t0\", \"t0-aligned\" or \"window\"",
+            ));
+        }
+        s.fit_quantity = FitQuantity::TimeConstants;
+    } else {
+        s.metric_choice = MetricChoice::Given;
+        s.metric = metric(rd, m)?;
+    }
+    Ok(())
+}
+
+/// `max_test_time`: a positive time up to [`MAX_TEST_TIME`].
+fn max_test_time(rd: &Reader, q: &SQty) -> Result<f64, ScenarioError> {
+    let v = rd.number(q, "plan.max_test_time", Dim::Time)?;
+    if !(v > 0.0 && v <= MAX_TEST_TIME) {
+        return Err(rd.err(
+            Some(&q.span()),
+            "plan.max_test_time",
+            format!(
+                "{} is not a test length: give a positive time up to a week, e.g. \"10 s\"",
+                rd.shown(q)
+            ),
+        ));
+    }
+    Ok(v)
+}
+
+/// The width, least width and edge ratios and the settle multiple, each within its range.
+fn plan_ratios(rd: &Reader, p: &RawPlan, s: &mut PlanSettings) -> Result<(), ScenarioError> {
     let ratio = "a ratio of the fastest time scale to the width";
     if let Some(q) = &p.width_ratio {
         s.width_ratio = within(rd, q, "plan.width_ratio", (1.0, 1e9), ratio)?;
@@ -295,22 +333,5 @@ pub(crate) fn plan_settings(
         let what = "the run in slowest time constants";
         s.settle_multiple = within(rd, q, "plan.settle_multiple", (1.0, 1e3), what)?;
     }
-    if let Some(q) = &p.samples {
-        s.samples = Some(whole(rd, q, "plan.samples", (1.0, MAX_SAMPLES))? as usize);
-    }
-    if let Some(q) = &p.seed {
-        s.seed = whole(rd, q, "plan.seed", (0.0, 2f64.powi(53)))? as u64;
-    }
-    if let Some(q) = &p.significance {
-        let v = rd.fraction(q, "plan.significance")?;
-        if !(0.0..1.0).contains(&v) {
-            return Err(rd.err(
-                Some(&q.span()),
-                "plan.significance",
-                "must be between 0 and 100 %",
-            ));
-        }
-        s.significance = v;
-    }
-    Ok(s)
+    Ok(())
 }

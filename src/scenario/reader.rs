@@ -202,14 +202,8 @@ impl<'a> Reader<'a> {
         self.list_within(l, key, dim, QUANTITY_RANGE)
     }
 
-    /// A list of values, each zero or of a magnitude within `range`.
-    pub(crate) fn list_within(
-        &self,
-        l: &SList,
-        key: &str,
-        dim: Dim,
-        range: (f64, f64),
-    ) -> Result<Vec<f64>, ScenarioError> {
+    /// Refuse a list of more than [`MAX_LIST`] entries.
+    fn list_length(&self, l: &SList, key: &str) -> Result<(), ScenarioError> {
         if l.get_ref().len() > MAX_LIST {
             return Err(self.err(
                 Some(&l.span()),
@@ -220,6 +214,18 @@ impl<'a> Reader<'a> {
                 ),
             ));
         }
+        Ok(())
+    }
+
+    /// A list of values, each zero or of a magnitude within `range`.
+    pub(crate) fn list_within(
+        &self,
+        l: &SList,
+        key: &str,
+        dim: Dim,
+        range: (f64, f64),
+    ) -> Result<Vec<f64>, ScenarioError> {
+        self.list_length(l, key)?;
         l.get_ref()
             .iter()
             .enumerate()
@@ -232,16 +238,7 @@ impl<'a> Reader<'a> {
         l: &SList,
         key: &str,
     ) -> Result<Vec<Complex64>, ScenarioError> {
-        if l.get_ref().len() > MAX_LIST {
-            return Err(self.err(
-                Some(&l.span()),
-                key,
-                format!(
-                    "has {} entries; at most {MAX_LIST} are read",
-                    l.get_ref().len()
-                ),
-            ));
-        }
+        self.list_length(l, key)?;
         l.get_ref()
             .iter()
             .enumerate()

@@ -355,6 +355,33 @@ pub(crate) struct PanelSpec<'s> {
     pub caption: Option<&'s str>,
 }
 
+/// The legend of `keys` above a panel against the pulse width, with the budget and
+/// rule-of-thumb lines' dashes recorded (returns the area below the legend).
+pub(crate) fn width_legend<'a>(
+    area: &Area<'a>,
+    keys: &[Key],
+    meta: &mut Meta,
+) -> io::Result<Area<'a>> {
+    let body = legend(area, keys, meta)?;
+    meta.dash(BUDGET, "8 5");
+    meta.dash(RULE, "10 4 2 4");
+    Ok(body)
+}
+
+/// A panel of a relative quantity (percent ticks) against the pulse width at 50 % (log time).
+pub(crate) fn width_spec<'s>(name: &'s str, x: Axis, y: Axis, ydesc: &'s str) -> PanelSpec<'s> {
+    PanelSpec {
+        name,
+        x,
+        y,
+        xdesc: "pulse width at 50 % (s)",
+        ydesc,
+        xfmt: &time_tick,
+        yfmt: &percent_tick,
+        caption: None,
+    }
+}
+
 /// Tick labels asked of each axis.
 const X_TICKS: usize = 8;
 const Y_TICKS: usize = 6;

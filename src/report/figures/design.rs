@@ -3,8 +3,8 @@
 
 use super::axis::Axis;
 use super::canvas::{
-    Area, BAND, BUDGET, Chart, EXTRA, Key, MARK, Meta, PLANNED, PREDICTED, PanelSpec, RULE, Spot,
-    curve, label, legend, marker, panel, pe, percent_tick, render, segment, time_tick, titled,
+    Area, BAND, BUDGET, Chart, EXTRA, Key, MARK, Meta, PLANNED, PREDICTED, RULE, Spot, curve,
+    label, marker, panel, pe, render, segment, titled, width_legend, width_spec,
 };
 use crate::estimate::Metric;
 use crate::pipeline::PlanOutcome;
@@ -200,20 +200,8 @@ pub fn design_svg(dc: &DesignCurve, extra_curves: &[ExtraCurve]) -> io::Result<S
         }
         keys.push(Key::marker(PLANNED, "planned width"));
         keys.push(Key::line(BAND, 12, "wider than the cap"));
-        let body = legend(&body, &keys, meta)?;
-        meta.dash(BUDGET, "8 5");
-        meta.dash(RULE, "10 4 2 4");
-        let spec = PanelSpec {
-            name: "design",
-            x,
-            y,
-            xdesc: "pulse width at 50 % (s)",
-            ydesc: "|relative error|",
-            xfmt: &time_tick,
-            yfmt: &percent_tick,
-            caption: None,
-        };
-        let mut ch = panel(&body, &spec, meta)?;
+        let body = width_legend(&body, &keys, meta)?;
+        let mut ch = panel(&body, &width_spec("design", x, y, "|relative error|"), meta)?;
         design_lines(&mut ch, meta, dc, extra_curves, (&x, &y, floor))?;
         design_labels(&mut ch, meta, dc, (&x, &y, floor))
     })

@@ -34,6 +34,34 @@ fn level_range(a: f64, below: f64, above: f64) -> Axis {
     }
 }
 
+/// The drive axis of the stimulus panels: its description and tick labels.
+struct Level<'s> {
+    desc: &'s str,
+    tick: &'s dyn Fn(f64, usize) -> String,
+}
+
+/// A panel of the drive level against time t, with an optional caption above it.
+fn level_panel<'a, 'b>(
+    area: &'a Area<'b>,
+    name: &str,
+    (x, y): (Axis, Axis),
+    level: &Level<'_>,
+    caption: Option<&str>,
+    meta: &mut Meta,
+) -> io::Result<Chart<'a, 'b>> {
+    let spec = PanelSpec {
+        name,
+        x,
+        y,
+        xdesc: "time t (s)",
+        ydesc: level.desc,
+        xfmt: &time_tick,
+        yfmt: level.tick,
+        caption,
+    };
+    panel(area, &spec, meta)
+}
+
 /// The pulse over its own duration, with the generator figures marked, and the rising and
 /// falling edges enlarged below it so the 10–90 % transition durations can be read.
 pub fn stimulus_svg(pulse: &Trapezoid, drive: Signal) -> io::Result<String> {
@@ -54,9 +82,13 @@ pub fn stimulus_svg(pulse: &Trapezoid, drive: Signal) -> io::Result<String> {
         let body = titled(root, title, &sub)?;
         let (top, bottom) = body.split_vertically(360);
         let (left, right) = bottom.split_horizontally(super::canvas::WIDTH as i32 / 2);
-        whole_pulse(&top, pulse, drive, &ydesc, &ytick, meta)?;
-        edge_panel(&left, pulse, true, &ydesc, &ytick, meta)?;
-        edge_panel(&right, pulse, false, &ydesc, &ytick, meta)?;
+        let level = Level {
+            desc: &ydesc,
+            tick: &ytick,
+        };
+        whole_pulse(&top, pulse, drive, &level, meta)?;
+        edge_panel(&left, pulse, true, &level, meta)?;
+        edge_panel(&right, pulse, false, &level, meta)?;
         Ok(())
     })
 }
@@ -66,8 +98,7 @@ fn whole_pulse(
     area: &Area<'_>,
     pulse: &Trapezoid,
     drive: Signal,
-    ydesc: &str,
-    ytick: &dyn Fn(f64, usize) -> String,
+    level: &Level<'_>,
     meta: &mut Meta,
 ) -> io::Result<()> {
     let a = pulse.amplitude;
@@ -76,17 +107,7 @@ fn whole_pulse(
     let (t50r, t50f, c) = (tr / 2.0, tr + flat + tf / 2.0, pulse.centroid());
     let x = Axis::linear(-0.1 * end, 1.1 * end);
     let y = level_range(a, 0.08, 1.25);
-    let spec = PanelSpec {
-        name: "pulse",
-        x,
-        y,
-        xdesc: "time t (s)",
-        ydesc,
-        xfmt: &time_tick,
-        yfmt: ytick,
-        caption: None,
-    };
-    let mut ch = panel(area, &spec, meta)?;
+    let mut ch = level_panel(area, "pulse", (x, y), level, None, meta)?;
     meta.series("pulse", "u", PREDICTED);
     meta.dash(RULE, "2 4");
     let mut shape = vec![(x.lo, 0.0)];
@@ -205,8 +226,7 @@ fn edge_panel(
     area: &Area<'_>,
     pulse: &Trapezoid,
     rising: bool,
-    ydesc: &str,
-    ytick: &dyn Fn(f64, usize) -> String,
+    level: &Level<'_>,
     meta: &mut Meta,
 ) -> io::Result<()> {
     let a = pulse.amplitude;
@@ -226,17 +246,7 @@ fn edge_panel(
         if rising { "rising" } else { "falling" },
         eng(d1090, Dim::Time)
     );
-    let spec = PanelSpec {
-        name,
-        x,
-        y,
-        xdesc: "time t (s)",
-        ydesc,
-        xfmt: &time_tick,
-        yfmt: ytick,
-        caption: Some(&caption),
-    };
-    let mut ch = panel(area, &spec, meta)?;
+    let mut ch = level_panel(area, name, (x, y), level, Some(&caption), meta)?;
     let mut pts = vec![(x.lo, pulse.value(x.lo))];
     pts.extend(pulse.breakpoints().into_iter().filter(|p| x.contains(p.0)));
     pts.push((x.hi, pulse.value(x.hi)));
