@@ -198,6 +198,186 @@ pub fn toleranced_parts(spec: &NetlistSpec) -> usize {
         .count()
 }
 
+/// One tolerance study: the netlist validated once, its toleranced parts and how the cases
+/// vary them.
+struct Study<'a> {
+    spec: &'a NetlistSpec,
+    validated: netlist::Validated,
+    /// Indices of the toleranced parts, and their tolerances.
+    toleranced: Vec<usize>,
+    tols: Vec<f64>,
+    /// Every part's nominal main value.
+    base: Vec<f64>,
+    threshold: f64,
+    corners: bool,
+    seed: u64,
+    nominal: Figures,
+}
+
+/// Per case: its figures and its index (`None` when the case could not be analysed).
+type Outcome = Option<(Figures, usize)>;
+
+impl Study<'_> {
+    /// The factors of case `case` on the toleranced parts: band edges for corners, uniform
+    /// within the band (seeded per case) for a sample.
+    fn factors(&self, case: usize) -> Vec<f64> {
+        let corner = |k: usize, t: f64| if case >> k & 1 == 1 { 1.0 + t } else { 1.0 - t };
+        let draw =
+            |k: usize, t: f64| 1.0 + t * (2.0 * uniform(self.seed, case as u64, k as u64) - 1.0);
+        (self.tols.iter().enumerate())
+            .map(|(k, &t)| {
+                if self.corners {
+                    corner(k, t)
+                } else {
+                    draw(k, t)
+                }
+            })
+            .collect()
+    }
+
+    fn values(&self, case: usize) -> Vec<f64> {
+        values_with(self.spec, &self.base, &self.toleranced, &self.factors(case))
+    }
+
+    /// The figures of a variant by the case path (projected where it can be).
+    fn case_figures(&self, values: &[f64]) -> Option<Figures> {
+        let net = self
+            .validated
+            .analyse_values(values)
+            .map(Network::from_circuit);
+        net.ok().map(|n| figures(&n, self.threshold))
+    }
+
+    /// Every case on every core, in case order.
+    fn run(&self, count: usize, progress: &(dyn Fn(usize) + Sync)) -> Vec<Outcome> {
+        let done = std::sync::atomic::AtomicUsize::new(0);
+        parallel_map(count, &|case| {
+            let f = self.case_figures(&self.values(case));
+            progress(done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1);
+            f.map(|f| (f, case))
+        })
+    }
+
+    /// The network of a case by the full path (the nominal when there is no such case).
+    fn network(&self, case: Option<usize>, nominal: &Network) -> Network {
+        case.and_then(|c| analyse_net(&netlist::with_values(self.spec, &self.values(c))).ok())
+            .unwrap_or_else(|| nominal.clone())
+    }
+
+    /// Sensitivities by central differences, one part at a time; both sides by the same
+    /// (case) path, so its rounding cancels in the difference.
+    fn differenced(&self) -> Vec<Sensitivity> {
+        let nominal = self.nominal;
+        let rel = |a: f64, b: f64, base: f64| {
+            if base == 0.0 || !base.is_finite() {
+                0.0
+            } else {
+                (a - b) / (2.0 * SENSITIVITY_STEP * base)
+            }
+        };
+        parallel_map(self.toleranced.len(), &|k| {
+            let i = self.toleranced[k];
+            let fig = |f: f64| self.case_figures(&values_with(self.spec, &self.base, &[i], &[f]));
+            let (up, down) = match (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP)) {
+                (Some(u), Some(d)) => (u, d),
+                _ => (nominal, nominal),
+            };
+            Sensitivity {
+                part: self.spec.parts[i].name.clone(),
+                tolerance: self.tols[k],
+                tau_fast: rel(up.tau_fast, down.tau_fast, nominal.tau_fast),
+                tau_slow: rel(up.tau_slow, down.tau_slow, nominal.tau_slow),
+                h0: rel(up.h0, down.h0, nominal.h0),
+            }
+        })
+    }
+
+    /// Regression slopes of ln q on ln x over the sample (independent inputs), only when the
+    /// sample is large enough for them to mean something (≥ 10 cases per part).
+    fn regressed(&self, results: &[Outcome]) -> Vec<Sensitivity> {
+        let ok: Vec<(Figures, Vec<f64>)> = results
+            .iter()
+            .flatten()
+            .map(|(f, case)| (*f, self.factors(*case)))
+            .collect();
+        if ok.len() < 10 * self.toleranced.len() {
+            return Vec::new();
+        }
+        (0..self.toleranced.len())
+            .map(|k| Sensitivity {
+                part: self.spec.parts[self.toleranced[k]].name.clone(),
+                tolerance: self.tols[k],
+                tau_fast: log_slope(&ok, k, &|f| f.tau_fast),
+                tau_slow: log_slope(&ok, k, &|f| f.tau_slow),
+                h0: log_slope(&ok, k, &|f| f.h0.abs()),
+            })
+            .collect()
+    }
+}
+
+/// Least-squares slope of ln q(figures) on ln x[k] over the cases with a positive q.
+fn log_slope(ok: &[(Figures, Vec<f64>)], k: usize, q: &dyn Fn(&Figures) -> f64) -> f64 {
+    let pts: Vec<(f64, f64)> = ok
+        .iter()
+        .filter_map(|(f, x)| {
+            let v = q(f);
+            (v.is_finite() && v > 0.0).then(|| (x[k].ln(), v.ln()))
+        })
+        .collect();
+    let n = pts.len() as f64;
+    if n < 3.0 {
+        return 0.0;
+    }
+    let mx = pts.iter().map(|p| p.0).sum::<f64>() / n;
+    let my = pts.iter().map(|p| p.1).sum::<f64>() / n;
+    let sxy: f64 = pts.iter().map(|p| (p.0 - mx) * (p.1 - my)).sum();
+    let sxx: f64 = pts.iter().map(|p| (p.0 - mx).powi(2)).sum();
+    if sxx > 0.0 { sxy / sxx } else { 0.0 }
+}
+
+/// The spreads over the cases, the failures, and the cases with the fastest significant and
+/// the slowest time scale.
+struct Extremes {
+    tau_fast: Spread,
+    tau_slow: Spread,
+    h0: Spread,
+    failures: usize,
+    fastest: Option<usize>,
+    slowest: Option<usize>,
+}
+
+fn extremes(nominal: &Figures, results: &[Outcome]) -> Extremes {
+    let mut x = Extremes {
+        tau_fast: Spread::new(nominal.tau_fast),
+        tau_slow: Spread::new(nominal.tau_slow),
+        h0: Spread::new(nominal.h0),
+        failures: 0,
+        fastest: None,
+        slowest: None,
+    };
+    let (mut fastest, mut slowest) = (None::<(f64, usize)>, None::<(f64, usize)>);
+    for r in results {
+        let Some((f, case)) = r else {
+            x.failures += 1;
+            continue;
+        };
+        x.tau_fast.add(f.tau_fast);
+        x.tau_slow.add(f.tau_slow);
+        x.h0.add(f.h0);
+        // Cases equal to rounding (parts that do not move the figure) are ties: the first case
+        // keeps them, so rounding noise cannot pick the extreme network.
+        if fastest.is_none_or(|(t, _)| f.tau_fast < t * (1.0 - TIE)) {
+            fastest = Some((f.tau_fast, *case));
+        }
+        if f.tau_slow.is_finite() && slowest.is_none_or(|(t, _)| f.tau_slow > t * (1.0 + TIE)) {
+            slowest = Some((f.tau_slow, *case));
+        }
+    }
+    x.fastest = fastest.map(|(_, c)| c);
+    x.slowest = slowest.map(|(_, c)| c);
+    x
+}
+
 /// Analyse the tolerances of a netlist. `None` when no part carries a tolerance, or when
 /// there are too many parts for corners and no Monte Carlo sample count was given.
 ///
@@ -211,20 +391,13 @@ pub fn analyse(
     seed: u64,
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<Option<ToleranceReport>, NetlistError> {
-    let toleranced: Vec<usize> = spec
-        .parts
-        .iter()
-        .enumerate()
+    let toleranced: Vec<usize> = (spec.parts.iter().enumerate())
         .filter(|(_, p)| p.tolerance.is_some_and(|t| t > 0.0))
         .map(|(i, _)| i)
         .collect();
     if toleranced.is_empty() || (samples.is_none() && toleranced.len() > MAX_CORNER_PARTS) {
         return Ok(None);
     }
-    let tols: Vec<f64> = toleranced
-        .iter()
-        .map(|&i| spec.parts[i].tolerance.unwrap_or(0.0))
-        .collect();
     let nominal_net = analyse_net(spec)?;
     let nominal = figures(&nominal_net, threshold);
     // Spreads are relative to the nominal figures: a network without a decaying mode (an
@@ -232,151 +405,45 @@ pub fn analyse(
     if !(nominal.tau_slow.is_finite() && nominal.tau_fast.is_finite() && nominal.h0.is_finite()) {
         return Ok(None);
     }
-
-    let use_corners = samples.is_none() && toleranced.len() <= MAX_CORNER_PARTS;
-    let (method, count) = if use_corners {
+    let corners = samples.is_none();
+    let (method, count) = if corners {
         let count = 1usize << toleranced.len();
         (Method::Corners { count }, count)
     } else {
         let n = samples.unwrap_or(1).max(1);
         (Method::MonteCarlo { samples: n, seed }, n)
     };
-    let factors_of = |case: usize| -> Vec<f64> {
-        tols.iter()
-            .enumerate()
-            .map(|(k, &t)| {
-                if use_corners {
-                    if case >> k & 1 == 1 { 1.0 + t } else { 1.0 - t }
-                } else {
-                    1.0 + t * (2.0 * uniform(seed, case as u64, k as u64) - 1.0)
-                }
-            })
-            .collect()
+    let study = Study {
+        spec,
+        validated: netlist::Validated::new(spec)?,
+        tols: toleranced
+            .iter()
+            .map(|&i| spec.parts[i].tolerance.unwrap_or(0.0))
+            .collect(),
+        toleranced,
+        base: netlist::main_values(spec),
+        threshold,
+        corners,
+        seed,
+        nominal,
     };
-    let validated = netlist::Validated::new(spec)?;
-    let base = netlist::main_values(spec);
-    let values_of = |case: usize| values_with(spec, &base, &toleranced, &factors_of(case));
-    let done = std::sync::atomic::AtomicUsize::new(0);
-    let results: Vec<Option<(Figures, usize)>> = parallel_map(count, &|case| {
-        let net = validated
-            .analyse_values(&values_of(case))
-            .map(Network::from_circuit)
-            .ok();
-        let n = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
-        progress(n);
-        net.map(|net| (figures(&net, threshold), case))
-    });
-    let mut tau_fast = Spread::new(nominal.tau_fast);
-    let mut tau_slow = Spread::new(nominal.tau_slow);
-    let mut h0 = Spread::new(nominal.h0);
-    let mut failures = 0;
-    let (mut fastest_case, mut slowest_case) = (None::<(f64, usize)>, None::<(f64, usize)>);
-    for r in &results {
-        match r {
-            None => failures += 1,
-            Some((f, case)) => {
-                tau_fast.add(f.tau_fast);
-                tau_slow.add(f.tau_slow);
-                h0.add(f.h0);
-                // Cases equal to rounding (parts that do not move the figure) are ties: the
-                // first case keeps them, so rounding noise cannot pick the extreme network.
-                if fastest_case.is_none_or(|(t, _)| f.tau_fast < t * (1.0 - TIE)) {
-                    fastest_case = Some((f.tau_fast, *case));
-                }
-                if f.tau_slow.is_finite()
-                    && slowest_case.is_none_or(|(t, _)| f.tau_slow > t * (1.0 + TIE))
-                {
-                    slowest_case = Some((f.tau_slow, *case));
-                }
-            }
-        }
-    }
-    let net_of = |case: Option<(f64, usize)>| -> Network {
-        case.and_then(|(_, c)| analyse_net(&netlist::with_values(spec, &values_of(c))).ok())
-            .unwrap_or_else(|| nominal_net.clone())
+    let results = study.run(count, progress);
+    let x = extremes(&nominal, &results);
+    let mut sensitivities = if corners || study.toleranced.len() <= MAX_DIFFERENCED_PARTS {
+        study.differenced()
+    } else {
+        study.regressed(&results)
     };
-    let fastest = net_of(fastest_case);
-    let slowest = net_of(slowest_case);
-
-    // Sensitivities by central differences, one part at a time.
-    let rel = |a: f64, b: f64, base: f64| {
-        if base == 0.0 || !base.is_finite() {
-            0.0
-        } else {
-            (a - b) / (2.0 * SENSITIVITY_STEP * base)
-        }
-    };
-    let mut sensitivities: Vec<Sensitivity> =
-        if use_corners || toleranced.len() <= MAX_DIFFERENCED_PARTS {
-            parallel_map(toleranced.len(), &|k| {
-                let i = toleranced[k];
-                // Both sides by the same (case) path, so its rounding cancels in the difference.
-                let fig = |f: f64| {
-                    let values = values_with(spec, &base, &[i], &[f]);
-                    let net = validated.analyse_values(&values).map(Network::from_circuit);
-                    net.ok().map(|n| figures(&n, threshold))
-                };
-                let (up, down) = (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP));
-                let (up, down) = match (up, down) {
-                    (Some(u), Some(d)) => (u, d),
-                    _ => (nominal, nominal),
-                };
-                Sensitivity {
-                    part: spec.parts[i].name.clone(),
-                    tolerance: tols[k],
-                    tau_fast: rel(up.tau_fast, down.tau_fast, nominal.tau_fast),
-                    tau_slow: rel(up.tau_slow, down.tau_slow, nominal.tau_slow),
-                    h0: rel(up.h0, down.h0, nominal.h0),
-                }
-            })
-        } else {
-            // Regression slopes of ln q on ln x over the sample (independent inputs), only when the
-            // sample is large enough for them to mean something (≥ 10 cases per part).
-            let ok: Vec<(Figures, Vec<f64>)> = results
-                .iter()
-                .flatten()
-                .map(|(f, case)| (*f, factors_of(*case)))
-                .collect();
-            let slope = |k: usize, q: &dyn Fn(&Figures) -> f64| -> f64 {
-                let pts: Vec<(f64, f64)> = ok
-                    .iter()
-                    .filter_map(|(f, x)| {
-                        let v = q(f);
-                        (v.is_finite() && v > 0.0).then(|| (x[k].ln(), v.ln()))
-                    })
-                    .collect();
-                let n = pts.len() as f64;
-                if n < 3.0 {
-                    return 0.0;
-                }
-                let mx = pts.iter().map(|p| p.0).sum::<f64>() / n;
-                let my = pts.iter().map(|p| p.1).sum::<f64>() / n;
-                let sxy: f64 = pts.iter().map(|p| (p.0 - mx) * (p.1 - my)).sum();
-                let sxx: f64 = pts.iter().map(|p| (p.0 - mx).powi(2)).sum();
-                if sxx > 0.0 { sxy / sxx } else { 0.0 }
-            };
-            let enough = ok.len() >= 10 * toleranced.len();
-            (0..toleranced.len())
-                .filter(|_| enough)
-                .map(|k| Sensitivity {
-                    part: spec.parts[toleranced[k]].name.clone(),
-                    tolerance: tols[k],
-                    tau_fast: slope(k, &|f| f.tau_fast),
-                    tau_slow: slope(k, &|f| f.tau_slow),
-                    h0: slope(k, &|f| f.h0.abs()),
-                })
-                .collect()
-        };
     sensitivities.sort_by(|a, b| b.influence().total_cmp(&a.influence()));
     Ok(Some(ToleranceReport {
         method,
-        tau_fast,
-        tau_slow,
-        h0,
+        tau_fast: x.tau_fast,
+        tau_slow: x.tau_slow,
+        h0: x.h0,
         sensitivities,
-        fastest,
-        slowest,
-        failures,
+        fastest: study.network(x.fastest, &nominal_net),
+        slowest: study.network(x.slowest, &nominal_net),
+        failures: x.failures,
     }))
 }
 

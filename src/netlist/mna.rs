@@ -262,24 +262,7 @@ fn stamp_part(st: &mut Stamper, circuit: &Circuit, current: &[Option<usize>], i:
     match &p.kind {
         PartKind::Resistor { nodes, .. } | PartKind::Capacitor { nodes, .. } => {
             let dynamic = matches!(p.kind, PartKind::Capacitor { .. });
-            let y = |sign: f64| {
-                if dynamic {
-                    value(sign)
-                } else {
-                    Law::Inverse { part: i, sign }
-                }
-            };
-            let (a, bn) = (node(&nodes[0]), node(&nodes[1]));
-            match k {
-                None => st.admittance(a, bn, dynamic, &y),
-                Some(k) => {
-                    // y·(va − vb) (or y·(va' − vb')) − i = 0.
-                    st.incidence(a, bn, k);
-                    st.put(dynamic, Some(k), a, y(1.0));
-                    st.put(dynamic, Some(k), bn, y(-1.0));
-                    st.g(Some(k), Some(k), -1.0);
-                }
-            }
+            stamp_store_or_resistor(st, node(&nodes[0]), node(&nodes[1]), k, i, dynamic);
         }
         PartKind::Inductor { nodes, .. } => {
             // va − vb − L i' − Σ M i_j' = 0.
@@ -336,6 +319,35 @@ fn stamp_part(st: &mut Stamper, circuit: &Circuit, current: &[Option<usize>], i:
             let s = current[circuit.part(sense).expect("validated sense")];
             let (a, bn) = (node(&nodes[0]), node(&nodes[1]));
             controlled_current(st, a, bn, k, &[(s, value(1.0))]);
+        }
+    }
+}
+
+/// A resistor (conductance 1/R) or capacitor (C, into Cm) `i` between nodes a and b: an
+/// admittance stamp, or through its branch current k when that is an unknown.
+fn stamp_store_or_resistor(
+    st: &mut Stamper,
+    a: Option<usize>,
+    b: Option<usize>,
+    k: Option<usize>,
+    i: usize,
+    dynamic: bool,
+) {
+    let y = |sign: f64| {
+        if dynamic {
+            Law::Value { part: i, sign }
+        } else {
+            Law::Inverse { part: i, sign }
+        }
+    };
+    match k {
+        None => st.admittance(a, b, dynamic, &y),
+        Some(k) => {
+            // y·(va − vb) (or y·(va' − vb')) − i = 0.
+            st.incidence(a, b, k);
+            st.put(dynamic, Some(k), a, y(1.0));
+            st.put(dynamic, Some(k), b, y(-1.0));
+            st.g(Some(k), Some(k), -1.0);
         }
     }
 }

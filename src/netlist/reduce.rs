@@ -327,107 +327,146 @@ fn widen(m: &DMatrix<f64>, cols: usize) -> DMatrix<f64> {
 /// Reduce the descriptor system to a state space.
 pub(crate) fn reduce(desc: &Descriptor) -> Result<Reduced, ReduceError> {
     let (mut s, e_scaled, a_scaled) = split(desc);
-    let singular = || null_vectors(&e_scaled, &a_scaled);
-    loop {
-        let r = s.a11.nrows();
-        let m = s.a22.nrows();
-        let ku = s.d.len();
-        if m == 0 {
-            break;
-        }
-        equilibrate(&mut s);
-        let sigma_max = s.a22.iter().fold(0.0f64, |m, x| m.max(x.abs()));
-        let tol = RANK_TOL * sigma_max.max(1.0) * (m as f64).sqrt();
-        let (p, sv, q) = full_svd(&s.a22, tol);
-        let qn = sv.len();
-        let pa = p.columns(0, qn).into_owned();
-        let pb = p.columns(qn, m - qn).into_owned();
-        let qa = q.columns(0, qn).into_owned();
-        let qb = q.columns(qn, m - qn).into_owned();
-        let sinv = DMatrix::from_diagonal(&DVector::from_iterator(qn, sv.iter().map(|x| 1.0 / x)));
-        // wa = −X η − Y U
-        let x = &sinv * pa.transpose() * &s.a21;
-        let y = &sinv * pa.transpose() * &s.b2;
-        let a12a = &s.a12 * &qa;
-        let c2a = qa.transpose() * &s.c2;
-        let a_hat = &s.a11 - &a12a * &x;
-        let b_hat = &s.b1 - &a12a * &y;
-        let c_hat = &s.c1 - x.transpose() * &c2a;
-        let mut d = s.d.clone();
-        let mut dabs = s.dabs.clone();
-        for j in 0..ku {
-            let col = y.column(j);
-            d[j] -= c2a.dot(&col);
-            dabs[j] += c2a.norm() * col.norm();
-        }
-        if qn == m {
-            s = Semi {
-                a11: a_hat,
-                a12: DMatrix::zeros(r, 0),
-                a21: DMatrix::zeros(0, r),
-                a22: DMatrix::zeros(0, 0),
-                b1: b_hat,
-                b2: DMatrix::zeros(0, ku),
-                c1: c_hat,
-                c2: DVector::zeros(0),
-                d,
-                alg_scale: 0.0,
-                dabs,
-            };
-            break;
-        }
-        // Constraints K η + L U = 0 on the dynamic unknowns.
-        let k = pb.transpose() * &s.a21;
-        let l = pb.transpose() * &s.b2;
-        let a12b = &s.a12 * &qb;
-        let c2b = qb.transpose() * &s.c2;
-        let (uk, sk, vk) = full_svd(&k, tol);
-        let pk = sk.len();
-        if pk < m - qn {
-            return Err(singular());
-        }
-        let sk_inv =
-            DMatrix::from_diagonal(&DVector::from_iterator(pk, sk.iter().map(|x| 1.0 / x)));
-        // ξ = V1ᵀ η = G U
-        let g = -(sk_inv * uk.transpose() * l);
-        let v1 = vk.columns(0, pk).into_owned();
-        let v2 = vk.columns(pk, r - pk).into_owned();
-        let grows = g.iter().any(|&x| x != 0.0);
-        let ku2 = if grows { ku + 1 } else { ku };
-        let av1g = &a_hat * &v1 * &g;
-        let b1 = widen(&(v2.transpose() * (&av1g + &b_hat)), ku2);
-        let mut b2 = widen(&(v1.transpose() * (&av1g + &b_hat)), ku2);
-        if grows {
-            for j in 0..ku {
-                let col = g.column(j).into_owned();
-                let mut dst = b2.column_mut(j + 1);
-                dst -= col;
-            }
-        }
-        let cv1 = v1.transpose() * &c_hat;
-        d.resize(ku2, 0.0);
-        dabs.resize(ku2, 0.0);
-        for j in 0..ku {
-            let col = g.column(j);
-            d[j] += cv1.dot(&col);
-            dabs[j] += cv1.norm() * col.norm();
-        }
-        s = Semi {
-            a11: v2.transpose() * &a_hat * &v2,
-            a12: v2.transpose() * &a12b,
-            a21: v1.transpose() * &a_hat * &v2,
-            a22: v1.transpose() * &a12b,
-            b1,
-            b2,
-            c1: v2.transpose() * &c_hat,
-            c2: c2b,
-            d,
-            alg_scale: a_hat.norm().hypot(a12b.norm()),
-            dabs,
-        };
+    while s.a22.nrows() > 0 {
+        s = step(&mut s).ok_or_else(|| null_vectors(&e_scaled, &a_scaled))?;
     }
+    index_one(s)
+}
 
-    // Index-1 form reached: x' = A x + Σ B_j u^(j), y = C x + Σ D_j u^(j).
+/// One elimination step of the algebraic unknowns (module documentation): the next
+/// semi-explicit system, `None` when the pencil is singular.
+fn step(s: &mut Semi) -> Option<Semi> {
+    let r = s.a11.nrows();
+    let m = s.a22.nrows();
+    let ku = s.d.len();
+    equilibrate(s);
+    let sigma_max = s.a22.iter().fold(0.0f64, |m, x| m.max(x.abs()));
+    let tol = RANK_TOL * sigma_max.max(1.0) * (m as f64).sqrt();
+    let (p, sv, q) = full_svd(&s.a22, tol);
+    let qn = sv.len();
+    let pa = p.columns(0, qn).into_owned();
+    let pb = p.columns(qn, m - qn).into_owned();
+    let qa = q.columns(0, qn).into_owned();
+    let qb = q.columns(qn, m - qn).into_owned();
+    let sinv = DMatrix::from_diagonal(&DVector::from_iterator(qn, sv.iter().map(|x| 1.0 / x)));
+    // wa = −X η − Y U
+    let x = &sinv * pa.transpose() * &s.a21;
+    let y = &sinv * pa.transpose() * &s.b2;
+    let a12a = &s.a12 * &qa;
+    let c2a = qa.transpose() * &s.c2;
+    let a_hat = &s.a11 - &a12a * &x;
+    let b_hat = &s.b1 - &a12a * &y;
+    let c_hat = &s.c1 - x.transpose() * &c2a;
+    let mut d = s.d.clone();
+    let mut dabs = s.dabs.clone();
+    for j in 0..ku {
+        let col = y.column(j);
+        d[j] -= c2a.dot(&col);
+        dabs[j] += c2a.norm() * col.norm();
+    }
+    if qn == m {
+        return Some(Semi {
+            a11: a_hat,
+            a12: DMatrix::zeros(r, 0),
+            a21: DMatrix::zeros(0, r),
+            a22: DMatrix::zeros(0, 0),
+            b1: b_hat,
+            b2: DMatrix::zeros(0, ku),
+            c1: c_hat,
+            c2: DVector::zeros(0),
+            d,
+            alg_scale: 0.0,
+            dabs,
+        });
+    }
+    let elim = Eliminated {
+        a_hat,
+        b_hat,
+        c_hat,
+        d,
+        dabs,
+        tol,
+    };
+    constrain(s, elim, &pb, &qb)
+}
+
+/// The part of one step that the eliminated unknowns leave: the Schur complement.
+struct Eliminated {
+    a_hat: DMatrix<f64>,
+    b_hat: DMatrix<f64>,
+    c_hat: DVector<f64>,
+    d: Vec<f64>,
+    dabs: Vec<f64>,
+    tol: f64,
+}
+
+/// The constraints a rank-deficient algebraic block leaves on the dynamic unknowns, solved
+/// for: the order drops and the constrained unknowns' rows become the next algebraic rows.
+fn constrain(s: &Semi, elim: Eliminated, pb: &DMatrix<f64>, qb: &DMatrix<f64>) -> Option<Semi> {
+    let Eliminated {
+        a_hat,
+        b_hat,
+        c_hat,
+        mut d,
+        mut dabs,
+        tol,
+    } = elim;
+    let (r, m, ku) = (s.a11.nrows(), s.a22.nrows(), s.d.len());
+    let qn = m - pb.ncols();
+    // Constraints K η + L U = 0 on the dynamic unknowns.
+    let k = pb.transpose() * &s.a21;
+    let l = pb.transpose() * &s.b2;
+    let a12b = &s.a12 * qb;
+    let c2b = qb.transpose() * &s.c2;
+    let (uk, sk, vk) = full_svd(&k, tol);
+    let pk = sk.len();
+    if pk < m - qn {
+        return None;
+    }
+    let sk_inv = DMatrix::from_diagonal(&DVector::from_iterator(pk, sk.iter().map(|x| 1.0 / x)));
+    // ξ = V1ᵀ η = G U
+    let g = -(sk_inv * uk.transpose() * l);
+    let v1 = vk.columns(0, pk).into_owned();
+    let v2 = vk.columns(pk, r - pk).into_owned();
+    let grows = g.iter().any(|&x| x != 0.0);
+    let ku2 = if grows { ku + 1 } else { ku };
+    let av1g = &a_hat * &v1 * &g;
+    let b1 = widen(&(v2.transpose() * (&av1g + &b_hat)), ku2);
+    let mut b2 = widen(&(v1.transpose() * (&av1g + &b_hat)), ku2);
+    if grows {
+        for j in 0..ku {
+            let col = g.column(j).into_owned();
+            let mut dst = b2.column_mut(j + 1);
+            dst -= col;
+        }
+    }
+    let cv1 = v1.transpose() * &c_hat;
+    d.resize(ku2, 0.0);
+    dabs.resize(ku2, 0.0);
+    for j in 0..ku {
+        let col = g.column(j);
+        d[j] += cv1.dot(&col);
+        dabs[j] += cv1.norm() * col.norm();
+    }
+    Some(Semi {
+        a11: v2.transpose() * &a_hat * &v2,
+        a12: v2.transpose() * &a12b,
+        a21: v1.transpose() * &a_hat * &v2,
+        a22: v1.transpose() * &a12b,
+        b1,
+        b2,
+        c1: v2.transpose() * &c_hat,
+        c2: c2b,
+        d,
+        alg_scale: a_hat.norm().hypot(a12b.norm()),
+        dabs,
+    })
+}
+
+/// The index-1 form reached, x' = A x + Σ B_j u^(j), y = C x + Σ D_j u^(j): input
+/// derivatives moved out of the state equation, rounding-level feed-through dropped, the
+/// state space balanced.
+fn index_one(s: Semi) -> Result<Reduced, ReduceError> {
     let a = s.a11;
     let mut b = s.b1;
     let c = s.c1;
