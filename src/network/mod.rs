@@ -4,6 +4,7 @@
 //! Every form a scenario can give (time constants, polynomials, zeros/poles/gain, and later
 //! netlists through a state space) ends as a [`Network`]; later stages see only modes.
 
+pub mod horner;
 pub mod partial;
 pub mod poly;
 
@@ -433,7 +434,7 @@ fn from_polynomials(numerator: &[f64], denominator: &[f64]) -> Result<Network, N
         ))
     };
     let den_roots = poly::roots(&den).ok_or_else(|| no_convergence("denominator"))?;
-    let groups = poly::cluster(&den_roots, scale);
+    let groups = poly::refine_clusters(&den, &poly::cluster(&den_roots, scale));
     let residues = partial::residues(&groups, den[0], &|p, count| poly::taylor_at(&num, p, count));
     let zeros = if num.len() > 1 {
         poly::cluster(
