@@ -57,6 +57,11 @@ pub enum Warning {
         amplification: f64,
         /// Relative rounding level of every figure.
         floor: f64,
+        /// A-priori bound on the error of h(0⁺), h(t) and the error figures, relative to the
+        /// normaliser (`network::accuracy`).
+        bound: f64,
+        /// A-priori bound on the worst residue's error, relative to that residue.
+        residue_bound: f64,
     },
     /// h(0⁺) from the modes and from the initial-value theorem disagree.
     #[serde(rename = "network-ill-conditioned")]
@@ -478,6 +483,8 @@ mod tests {
             Warning::RoundingLoss {
                 amplification: 1e3,
                 floor: 1e-13,
+                bound: 2e-7,
+                residue_bound: 1e-9,
             },
             Warning::SingleShotOnly,
             Warning::WidthBelowGenerator {

@@ -400,16 +400,27 @@ fn run_length(net: &Network, shape: &IdealShape, k: f64) -> (f64, RunBasis) {
     }
 }
 
+/// Relative accuracy every figure is held to; a bound above it is warned about.
+pub const ACCURACY_LIMIT: f64 = 1e-7;
+
 /// Warnings that belong to the network itself, whatever the pulse.
-fn network_warnings(net: &Network, shape: &IdealShape, estimator: &Estimator) -> Vec<Warning> {
+fn network_warnings(
+    net: &Network,
+    shape: &IdealShape,
+    estimator: &Estimator,
+    run: f64,
+) -> Vec<Warning> {
     let mut warnings = Vec::new();
-    // Modal sums lose digits when large residues cancel: the rounding of Σ|r| relative to the
-    // normaliser bounds the relative accuracy of every figure.
+    // Modal sums lose digits when large residues cancel, and the residues of close poles
+    // follow the poles' errors: the a-priori bounds (network::accuracy) say by how much.
     let floor = estimator.rounding_floor();
-    if floor > 1e-9 {
+    let bound = net.figure_bound(run, shape.peak, estimator.normaliser());
+    if bound.figures > ACCURACY_LIMIT || bound.residues > ACCURACY_LIMIT {
         warnings.push(Warning::RoundingLoss {
             amplification: floor / f64::EPSILON,
             floor,
+            bound: bound.figures,
+            residue_bound: bound.residues,
         });
     }
     for m in net.unstable_modes().filter(|m| m.pole.im >= 0.0) {
@@ -452,7 +463,7 @@ pub fn prepare(net: &Network, settings: &PlanSettings) -> Prepared {
     let (run, run_basis) = run_length(net, &shape, settings.settle_multiple);
     Prepared {
         facts: network_facts(net, &shape, &sig),
-        warnings: network_warnings(net, &shape, &estimator),
+        warnings: network_warnings(net, &shape, &estimator, run),
         tau_fast: net.tau_fast(),
         tau_plan: sig.tau,
         shares: sig.shares,

@@ -383,6 +383,43 @@ struct Term {
     weight: f64,
 }
 
+/// Σ|Gram terms| above this multiple of ∫value² (about 1e-12 of ε⁻¹: the sum would keep fewer
+/// than ~12 digits) hands the window's RMS to quadrature.
+pub const GRAM_CANCELLATION: f64 = 1e4;
+
+/// Most segments the quadrature of ∫value² may use.
+pub const MAX_QUADRATURE_SEGMENTS: usize = 200_000;
+
+/// Nodes and weights of 16-point Gauss–Legendre quadrature on [−1, 1]: the roots of P₁₆ by
+/// Newton from Tricomi's estimates cos(π(i − ¼)/(n + ½)), weights 2/((1 − x²)P′₁₆(x)²)
+/// (Abramowitz & Stegun 1964, 25.4.29).
+fn gauss_legendre_16() -> ([f64; 16], [f64; 16]) {
+    const N: usize = 16;
+    let mut nodes = [0.0; N];
+    let mut weights = [0.0; N];
+    for i in 0..N {
+        let mut x = (std::f64::consts::PI * (i as f64 + 0.75) / (N as f64 + 0.5)).cos();
+        let mut dp = 1.0;
+        for _ in 0..100 {
+            // P_n(x) and P′_n(x) by the three-term recurrence.
+            let (mut p0, mut p1) = (1.0, x);
+            for k in 2..=N {
+                let k = k as f64;
+                (p0, p1) = (p1, ((2.0 * k - 1.0) * x * p1 - (k - 1.0) * p0) / k);
+            }
+            dp = N as f64 * (x * p1 - p0) / (x * x - 1.0);
+            let step = p1 / dp;
+            x -= step;
+            if step.abs() <= 1e-16 {
+                break;
+            }
+        }
+        nodes[i] = x;
+        weights[i] = 2.0 / ((1.0 - x * x) * dp * dp);
+    }
+    (nodes, weights)
+}
+
 /// A sum of modes Σ w·Re(e^(p(t−anchor))·Σ q_k (t−anchor)^k), valid for t ≥ anchor.
 #[derive(Debug, Clone)]
 pub struct FreeResponse {
@@ -487,23 +524,67 @@ impl FreeResponse {
             acc
         };
         let mut total = 0.0;
+        let mut size = 0.0;
         for (i, a) in self.terms.iter().enumerate() {
             for b in &self.terms[i..] {
                 let factor = if std::ptr::eq(a, b) { 1.0 } else { 2.0 };
-                if a.q.len() == 1 && b.q.len() == 1 {
-                    let v = simple(a.p + b.p, a.q[0] * b.q[0])
-                        + simple(a.p + b.p.conj(), a.q[0] * b.q[0].conj());
-                    total += factor * a.weight * b.weight * 0.5 * v.re;
-                    continue;
-                }
-                let prod = poly_mul(&a.q, &b.q);
-                let conj_b: Vec<C> = b.q.iter().map(|c| c.conj()).collect();
-                let prod_c = poly_mul(&a.q, &conj_b);
-                let v = integral(a.p + b.p, &prod) + integral(a.p + b.p.conj(), &prod_c);
+                let v = if a.q.len() == 1 && b.q.len() == 1 {
+                    simple(a.p + b.p, a.q[0] * b.q[0])
+                        + simple(a.p + b.p.conj(), a.q[0] * b.q[0].conj())
+                } else {
+                    let prod = poly_mul(&a.q, &b.q);
+                    let conj_b: Vec<C> = b.q.iter().map(|c| c.conj()).collect();
+                    let prod_c = poly_mul(&a.q, &conj_b);
+                    integral(a.p + b.p, &prod) + integral(a.p + b.p.conj(), &prod_c)
+                };
                 total += factor * a.weight * b.weight * 0.5 * v.re;
+                size += (factor * a.weight * b.weight * 0.5 * v.re).abs();
             }
         }
+        // The Gram sum's rounding is ε·Σ|terms|: where close modes with large, opposite
+        // coefficients make it cancel (Σ|terms| ≫ ∫value², the amplification squared), the
+        // integral of the value itself — whose rounding is only linear in it — is taken instead.
+        if size > GRAM_CANCELLATION * total
+            && let Some(q) = self.integral_square_by_quadrature(span)
+        {
+            return q;
+        }
         total.max(0.0)
+    }
+
+    /// ∫₀ᵀ value² dτ by 16-point Gauss–Legendre quadrature (Golub & Welsch 1969 nodes, found
+    /// here by Newton on P₁₆) on segments geometric from the fastest time scale and none wider
+    /// than 2/|p|max, where the integrand's Taylor terms fall below ε. `None` beyond
+    /// [`MAX_QUADRATURE_SEGMENTS`] segments (the Gram sum is kept).
+    fn integral_square_by_quadrature(&self, span: f64) -> Option<f64> {
+        let fastest = self.terms.iter().map(|t| t.p.norm()).fold(0.0, f64::max);
+        if !(fastest > 0.0 && span > 0.0) {
+            return None;
+        }
+        let width = 2.0 / fastest;
+        if span / width > MAX_QUADRATURE_SEGMENTS as f64 {
+            return None;
+        }
+        let mut edges = vec![0.0];
+        let mut t = (width * 1e-6).min(span);
+        while t < span {
+            edges.push(t);
+            t = (t * 1.5).min(t + width);
+        }
+        edges.push(span);
+        let (nodes, weights) = gauss_legendre_16();
+        let mut total = 0.0;
+        for w in edges.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            let (mid, half) = ((a + b) / 2.0, (b - a) / 2.0);
+            let seg: f64 = nodes
+                .iter()
+                .zip(&weights)
+                .map(|(x, wt)| wt * self.at(self.anchor + mid + half * x).powi(2))
+                .sum();
+            total += seg * half;
+        }
+        Some(total.max(0.0))
     }
 
     /// Σ_{k≥1} value(t + kT): what the earlier pulses of a train with period T still leave at
@@ -916,6 +997,30 @@ mod tests {
         // Re-anchoring preserves values.
         let r = h.reanchored(1e-3);
         assert!((r.at(2e-3) - h.at(2e-3)).abs() < 1e-12 * want);
+    }
+
+    #[test]
+    fn integral_square_of_a_close_pair_keeps_its_digits() {
+        // Poles −a and −a(1 + 1e-9): h = K(e^(−p₁t) − e^(−p₂t))/(p₂ − p₁) = K·t·e^(−at)·(1 + O(1e-9)),
+        // so ∫₀^∞ h² = K²/(4a³) to ~1e-9 (closed form of ∫t²e^(−2at)). The Gram sum alone
+        // cancels by (1e9)² and keeps no digit; the quadrature keeps about nine.
+        let (a, k) = (1e3, 1e6);
+        let c = Complex64::new;
+        let net = Network::from_spec(&NetworkSpec::ZeroPoleGain {
+            zeros: vec![],
+            poles: vec![c(-a, 0.0), c(-a * (1.0 + 1e-9), 0.0)],
+            gain: k,
+        })
+        .unwrap();
+        let h = Modal::new(&net).impulse();
+        let want = k * k / (4.0 * a * a * a);
+        let got = h.integral_square(60.0 / a);
+        assert!((got - want).abs() < 1e-7 * want, "{got} vs {want}");
+        let (x, w) = gauss_legendre_16();
+        // Σw = 2 and Σw·x² = 2/3 on [−1, 1] (exact for the rule's degree).
+        assert!((w.iter().sum::<f64>() - 2.0).abs() < 1e-14);
+        let m2: f64 = x.iter().zip(&w).map(|(x, w)| w * x * x).sum();
+        assert!((m2 - 2.0 / 3.0).abs() < 1e-14);
     }
 
     #[test]

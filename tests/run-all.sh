@@ -9,6 +9,9 @@ cargo test
 cargo build --release
 "$PY" tests/reference/check_core.py --quiet
 "$PY" tests/reference/check_circuits.py --quiet
+# Near-repeated poles (pairs 1e-3 ... 1e-10 apart) against mpmath partial fractions: accurate
+# to 1e-7, or warned with a bound at least the error.
+"$PY" tests/reference/check_near_repeated.py --quiet
 # Recovery from synthetic captures (tests/recovery/gen_capture.py): Cramér–Rao spread and
 # coverage, the three readings, a part off its value, file layouts, bad files.
 "$PY" tests/recovery/check_recovery.py --quiet

@@ -4,6 +4,8 @@
 //! Every form a scenario can give (time constants, polynomials, zeros/poles/gain, and later
 //! netlists through a state space) ends as a [`Network`]; later stages see only modes.
 
+pub mod accuracy;
+pub mod horner;
 pub mod partial;
 pub mod poly;
 
@@ -189,6 +191,9 @@ pub struct Network {
     /// h(0⁺) by the initial-value theorem, lim s·(H(s) − polynomial part), computed
     /// independently of the residues.
     pub h0_ivt: f64,
+    /// A-priori accuracy of each mode, aligned with `modes`; empty where not assessed
+    /// (circuits, time constants), which counts as exact poles with rounding-level residues.
+    pub accuracy: Vec<accuracy::ModeAccuracy>,
 }
 
 impl Network {
@@ -231,6 +236,7 @@ impl Network {
             zeros: Vec::new(),
             residues_known: true,
             h0_ivt: 0.0,
+            accuracy: Vec::new(),
         }
     }
 
@@ -255,6 +261,7 @@ impl Network {
             zeros,
             residues_known: true,
             h0_ivt: f.h0_ivt,
+            accuracy: Vec::new(),
         }
     }
 
@@ -277,10 +284,13 @@ impl Network {
     /// True when h(0⁺) is zero to the accuracy of the modal sum: exactly zero, or within 1e-9
     /// of the modes' summed size near the origin (a low-pass of relative degree ≥ 2, a ladder).
     /// Readings at 0⁺ then have nothing to be compared with.
+    /// A non-zero h(0⁺) that the initial-value theorem confirms to 1e-6 is not negligible,
+    /// however large the residues that cancel into it (a near-repeated pair's).
     pub fn h0_negligible(&self) -> bool {
         let h0 = self.h0_plus();
         let scale: f64 = self.modes.iter().map(Mode::size).sum();
-        h0 == 0.0 || h0.abs() <= 1e-9 * scale
+        let confirmed = self.h0_ivt != 0.0 && (h0 - self.h0_ivt).abs() <= 1e-6 * self.h0_ivt.abs();
+        h0 == 0.0 || (h0.abs() <= 1e-9 * scale && !confirmed)
     }
 
     /// Fastest time scale 1/max|p| (poles at the origin excluded).
@@ -362,6 +372,25 @@ impl Network {
         }
     }
 
+    /// A-priori bounds of the figures over [0, `span`] (relative to `normaliser`, counting
+    /// both a reading and the ideal it is compared with) and of the residues, from the modes'
+    /// accuracy ([`accuracy`]); capped at 1e300 so they stay finite.
+    pub fn figure_bound(&self, span: f64, peak: f64, normaliser: f64) -> accuracy::FigureBound {
+        let order = self.order();
+        let mut abs = 0.0;
+        let mut residues: f64 = 0.0;
+        for (i, m) in self.modes.iter().enumerate() {
+            let a = self.accuracy.get(i).copied().unwrap_or_default();
+            abs += accuracy::mode_figure_error(m.pole, &m.residues, a, order, span, peak);
+            residues = residues.max(a.residue);
+        }
+        let finite = |x: f64| if x.is_finite() { x.min(1e300) } else { 1e300 };
+        accuracy::FigureBound {
+            figures: finite(2.0 * abs / normaliser),
+            residues: finite(residues),
+        }
+    }
+
     /// Order (number of poles counted with multiplicity).
     pub fn order(&self) -> usize {
         self.modes.iter().map(Mode::multiplicity).sum()
@@ -404,6 +433,7 @@ fn from_time_constants(taus: &[f64]) -> Result<Network, NetworkError> {
         zeros: Vec::new(),
         residues_known: false,
         h0_ivt: 0.0,
+        accuracy: Vec::new(),
     };
     sort_modes(&mut net.modes);
     net.h0_ivt = net.h0_plus();
@@ -433,7 +463,7 @@ fn from_polynomials(numerator: &[f64], denominator: &[f64]) -> Result<Network, N
         ))
     };
     let den_roots = poly::roots(&den).ok_or_else(|| no_convergence("denominator"))?;
-    let groups = poly::cluster(&den_roots, scale);
+    let groups = poly::refine_clusters(&den, &poly::cluster(&den_roots, scale));
     let residues = partial::residues(&groups, den[0], &|p, count| poly::taylor_at(&num, p, count));
     let zeros = if num.len() > 1 {
         poly::cluster(
@@ -454,8 +484,10 @@ fn from_polynomials(numerator: &[f64], denominator: &[f64]) -> Result<Network, N
         zeros,
         residues_known: true,
         h0_ivt,
+        accuracy: Vec::new(),
     };
     sort_modes(&mut net.modes);
+    net.accuracy = accuracy::of_polynomials(&num, &den, &pole_groups(&net.modes), &net.zeros);
     Ok(net)
 }
 
@@ -507,8 +539,10 @@ fn from_zpk(zeros: &[Complex64], poles: &[Complex64], gain: f64) -> Result<Netwo
         zeros: zeros.to_vec(),
         residues_known: true,
         h0_ivt,
+        accuracy: Vec::new(),
     };
     sort_modes(&mut net.modes);
+    net.accuracy = accuracy::of_zpk(zeros, poles, &pole_groups(&net.modes));
     Ok(net)
 }
 
@@ -563,6 +597,11 @@ fn build_modes(groups: &[(Complex64, usize)], residues: Vec<Vec<Complex64>>) -> 
         }
     }
     modes
+}
+
+/// Each mode's pole and multiplicity.
+fn pole_groups(modes: &[Mode]) -> Vec<accuracy::PoleGroup> {
+    modes.iter().map(|m| (m.pole, m.multiplicity())).collect()
 }
 
 /// Slowest first; conjugate pairs adjacent with the upper member first.

@@ -70,10 +70,13 @@ fn network_warning(w: &Warning, cx: &Context) -> Option<String> {
     Some(match w {
         Warning::RoundingLoss {
             amplification,
-            floor,
+            bound,
+            residue_bound,
+            ..
         } => format!(
-            "the modes' residues are up to {amplification:.1e} times the size of h itself and cancel in the sum: \
-             relative figures carry rounding of about {floor:.0e}"
+            "the modes' residues are up to {amplification:.1e} times the size of h itself and cancel in the sum, \
+             or the poles are close enough to be sensitive: h(0⁺), h(t) and the error figures can be off by up to \
+             {bound:.1e} of the normaliser, and a residue by up to {residue_bound:.1e} of itself"
         ),
         Warning::H0Disagrees {
             from_modes,
