@@ -383,9 +383,11 @@ struct Term {
     weight: f64,
 }
 
-/// Σ|Gram terms| above this multiple of ∫value² (about 1e-12 of ε⁻¹: the sum would keep fewer
-/// than ~12 digits) hands the window's RMS to quadrature.
-pub const GRAM_CANCELLATION: f64 = 1e4;
+/// Σ|Gram terms| above this multiple of ∫value² hands the window's RMS to quadrature: beyond
+/// it the sum's rounding, ε·Σ|terms|, exceeds 1e-9 of ∫value² (5e-10 of the RMS). Below it
+/// the sum is kept (it is exact in form and O(modes²) against the quadrature's
+/// O(modes·segments), which a long ladder would pay at every width tried).
+pub const GRAM_CANCELLATION: f64 = 1e-9 / f64::EPSILON;
 
 /// Most segments the quadrature of ∫value² may use.
 pub const MAX_QUADRATURE_SEGMENTS: usize = 200_000;
@@ -545,7 +547,8 @@ impl FreeResponse {
         // coefficients make it cancel (Σ|terms| ≫ ∫value², the amplification squared), the
         // integral of the value itself — whose rounding is only linear in it — is taken instead.
         if size > GRAM_CANCELLATION * total
-            && let Some(q) = self.integral_square_by_quadrature(span)
+            && let Some(q) = self
+                .integral_square_by_quadrature(span, (size / total.max(f64::EPSILON * size)).sqrt())
         {
             return q;
         }
@@ -554,22 +557,33 @@ impl FreeResponse {
 
     /// ∫₀ᵀ value² dτ by 16-point Gauss–Legendre quadrature (Golub & Welsch 1969 nodes, found
     /// here by Newton on P₁₆) on segments geometric from the fastest time scale and none wider
-    /// than 2/|p|max, where the integrand's Taylor terms fall below ε. `None` beyond
-    /// [`MAX_QUADRATURE_SEGMENTS`] segments (the Gram sum is kept).
-    fn integral_square_by_quadrature(&self, span: f64) -> Option<f64> {
+    /// than 2/|p| of the fastest mode still alive at the segment's start (where the
+    /// integrand's Taylor terms fall below ε). A mode is alive while e^(Re p·t), times the
+    /// coefficients' amplification over the value (√(Σ|Gram terms|/∫value²)), is above
+    /// e^(−40). `None` beyond [`MAX_QUADRATURE_SEGMENTS`] segments (the Gram sum is kept).
+    fn integral_square_by_quadrature(&self, span: f64, amplification: f64) -> Option<f64> {
         let fastest = self.terms.iter().map(|t| t.p.norm()).fold(0.0, f64::max);
         if !(fastest > 0.0 && span > 0.0) {
             return None;
         }
-        let width = 2.0 / fastest;
-        if span / width > MAX_QUADRATURE_SEGMENTS as f64 {
-            return None;
-        }
+        let cut = 40.0 + amplification.max(1.0).ln();
+        let width_at = |t: f64| {
+            let alive = self
+                .terms
+                .iter()
+                .filter(|m| m.p.re * t > -cut - 10.0 * (m.q.len() - 1) as f64)
+                .map(|m| m.p.norm())
+                .fold(0.0, f64::max);
+            if alive > 0.0 { 2.0 / alive } else { span }
+        };
         let mut edges = vec![0.0];
-        let mut t = (width * 1e-6).min(span);
+        let mut t = (2.0 / fastest * 1e-6).min(span);
         while t < span {
             edges.push(t);
-            t = (t * 1.5).min(t + width);
+            if edges.len() > MAX_QUADRATURE_SEGMENTS {
+                return None;
+            }
+            t = (t * 1.5).min(t + width_at(t));
         }
         edges.push(span);
         let (nodes, weights) = gauss_legendre_16();

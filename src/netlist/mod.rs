@@ -125,11 +125,28 @@ pub fn analyse(spec: &NetlistSpec) -> Result<CircuitFunction, NetlistError> {
 
 /// The general path: descriptor system, reduction, eigen-decomposition, and (when `full`)
 /// the zeros and the descriptor polish of residues, D and h(0⁺).
+/// The most unknowns (node voltages and branch currents) of a circuit outside the symmetric
+/// path: its reduction and eigen-decomposition are dense, their cost grows with the cube of
+/// this order (about a minute at 2000 on two cores).
+pub const MAX_GENERAL_ORDER: usize = 2000;
+
 fn general(
     spec: &NetlistSpec,
     circuit: &check::Circuit,
     full: bool,
 ) -> Result<CircuitFunction, NetlistError> {
+    let order = mna::Stamps::new(spec, circuit).order();
+    if order > MAX_GENERAL_ORDER {
+        return Err(NetlistError::new(
+            None,
+            &check::output_name(&spec.output),
+            format!(
+                "this circuit has {order} unknowns (node voltages and branch currents); circuits \
+                 other than resistors with capacitors only, or resistors with inductors only, \
+                 are analysed up to {MAX_GENERAL_ORDER}"
+            ),
+        ));
+    }
     let (reduced, desc) = reduce_checked(spec, circuit)?;
     let out = check::output_name(&spec.output);
     let mut f = modes::function(&reduced.ss, reduced.improper, full)

@@ -6,9 +6,10 @@ use crate::units::{Dim, Signal};
 use serde::Deserialize;
 use toml::Spanned;
 
-/// The most parts a netlist may have (the analysis is dense: its cost grows with the cube of
-/// the node count).
-pub const MAX_PARTS: usize = 2000;
+/// The most parts a netlist may have. Circuits of resistors and capacitors (or resistors and
+/// inductors) take the symmetric path, whose cost a 10 000-part ladder keeps to seconds;
+/// other circuits are further held to `netlist::MAX_GENERAL_ORDER` unknowns.
+pub const MAX_PARTS: usize = 10_000;
 
 /// Where the output is taken.
 #[derive(Debug, Clone, Deserialize)]
