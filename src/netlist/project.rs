@@ -108,31 +108,8 @@ impl Projection {
         for (rs, cs) in &comps {
             let block = select(&e, rs, cs);
             let (u, s, v) = full_svd(&block, block_tol(&block));
-            let spread = |m: &DMatrix<f64>, idx: &[usize], k: usize| {
-                let mut out = DVector::zeros(n);
-                for (i, &g) in idx.iter().enumerate() {
-                    out[g] = m[(i, k)];
-                }
-                out
-            };
-            for k in 0..rs.len() {
-                let row = spread(&u, rs, k);
-                if k < s.len() {
-                    &mut dyn_rows
-                } else {
-                    &mut alg_rows
-                }
-                .push(row);
-            }
-            for k in 0..cs.len() {
-                let col = spread(&v, cs, k);
-                if k < s.len() {
-                    &mut dyn_cols
-                } else {
-                    &mut alg_cols
-                }
-                .push(col);
-            }
+            sort_basis(&u, rs, s.len(), n, &mut dyn_rows, &mut alg_rows);
+            sort_basis(&v, cs, s.len(), n, &mut dyn_cols, &mut alg_cols);
         }
         let r = dyn_rows.len();
         if r != dyn_cols.len() || r + alg_rows.len() != n || r + alg_cols.len() != n {
@@ -219,6 +196,30 @@ impl Projection {
             c: c_hat,
             d,
         })
+    }
+}
+
+/// The columns of a block's orthogonal factor `m` (over the indices `idx`) as length-n
+/// vectors: the first `rank` to `dynamic`, the rest to `algebraic`.
+fn sort_basis(
+    m: &DMatrix<f64>,
+    idx: &[usize],
+    rank: usize,
+    n: usize,
+    dynamic: &mut Vec<DVector<f64>>,
+    algebraic: &mut Vec<DVector<f64>>,
+) {
+    for k in 0..idx.len() {
+        let mut out = DVector::zeros(n);
+        for (i, &g) in idx.iter().enumerate() {
+            out[g] = m[(i, k)];
+        }
+        if k < rank {
+            &mut *dynamic
+        } else {
+            &mut *algebraic
+        }
+        .push(out);
     }
 }
 

@@ -119,23 +119,7 @@ class ExactWindow:
     kept at 40+ digits: the pair's terms cancel by 1/separation, beyond a float64 sum)."""
 
     def __init__(self, net, pulse):
-        self.terms = []
-        with mp.workdps(60):
-            area, end, c = pulse.area, pulse.end, pulse.centroid
-            d = end - c
-            for md in net.modes:
-                p, m = md.pole, md.m
-                N = R.moments(pulse, p, m)
-                coefs = []
-                for j in range(m):
-                    acc = mp.mpc(0)
-                    for k in range(j + 1, m + 1):
-                        r = md.residues[k - 1]
-                        q = k - 1 - j
-                        acc += r / mp.factorial(k - 1) * mp.binomial(k - 1, j) * \
-                            (N[q] / area - d ** q * mp.exp(p * d))
-                    coefs.append(acc)
-                self.terms.append((p, coefs))
+        self.terms = R.window_terms(net, pulse)
 
     def __call__(self, s):
         s = mp.mpf(s)

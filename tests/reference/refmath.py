@@ -418,29 +418,39 @@ def moments(pulse, p, kmax):
     return out
 
 
+def window_terms(net, pulse):
+    """Per mode (p, [coef_j]) with e(s) = y(end+s)/area - h(end+s-c) = sum e^{ps} sum_j coef_j s^j
+    for s >= 0, the coefficients at 60 digits (mpmath) from the pulse's moments."""
+    terms = []
+    with mp.workdps(60):
+        area, end, c = pulse.area, pulse.end, pulse.centroid
+        d = end - c
+        for md in net.modes:
+            p, m = md.pole, md.m
+            N = moments(pulse, p, m)
+            coefs = []
+            for j in range(m):
+                acc = mp.mpc(0)
+                for k in range(j + 1, m + 1):
+                    r = md.residues[k - 1]
+                    q = k - 1 - j
+                    acc += r / mp.factorial(k - 1) * mp.binomial(k - 1, j) * \
+                        (N[q] / area - d ** q * mp.exp(p * d))
+                coefs.append(acc)
+            terms.append((p, coefs))
+    return terms
+
+
 class WindowError:
     """e(s) = y(end+s)/area - h(end+s-c) for s >= 0, written per mode as
     e^{p s} * sum_j coef_j s^j with coefficients computed at high precision
     (so the float evaluation is free of cancellation)."""
 
     def __init__(self, net, pulse):
-        self.terms = []
+        self.terms = [(complex(p), np.array([complex(c) for c in coefs]))
+                      for p, coefs in window_terms(net, pulse)]
         with mp.workdps(60):
-            area, end, c = pulse.area, pulse.end, pulse.centroid
-            d = end - c
-            for md in net.modes:
-                p, m = md.pole, md.m
-                N = moments(pulse, p, m)
-                coefs = []
-                for j in range(m):
-                    acc = mp.mpc(0)
-                    for k in range(j + 1, m + 1):
-                        r = md.residues[k - 1]
-                        q = k - 1 - j
-                        acc += r / mp.factorial(k - 1) * mp.binomial(k - 1, j) * \
-                            (N[q] / area - d ** q * mp.exp(p * d))
-                    coefs.append(complex(acc))
-                self.terms.append((complex(p), np.array(coefs)))
+            area = pulse.area
             # y(end)/area from the moments, to cross-check the closed form
             acc = mp.mpc(0)
             for md in net.modes:
