@@ -117,6 +117,9 @@ fn rough_peak(h: &FreeResponse, net: &Network, span: f64) -> f64 {
 }
 
 /// Bisection on h′ in [a, b] (h′(a), h′(b) of opposite signs): the extremum of h inside.
+/// Most sign changes of h′ refined by bisection in one scan (see [`bounded`]).
+const MAX_EXTREMA: usize = 4096;
+
 fn extremum(dh: &FreeResponse, h: &FreeResponse, a: Sample, b: Sample) -> Sample {
     let (mut lo, mut hi) = (a.t, b.t);
     let s_lo = a.dh.signum();
@@ -157,12 +160,34 @@ fn scan(
         })
         .collect();
     let level = samples.iter().map(|s| s.h.abs()).fold(0.0, f64::max) * SETTLE_FRACTION;
-    let extrema = samples
-        .windows(2)
-        .filter(|w| w[0].dh * w[1].dh < 0.0 && w[0].h.abs().max(w[1].h.abs()) >= 0.5 * level)
-        .map(|w| extremum(dh, h, w[0], w[1]))
+    let candidates: Vec<usize> = (0..samples.len().saturating_sub(1))
+        .filter(|&i| {
+            let (a, b) = (samples[i], samples[i + 1]);
+            a.dh * b.dh < 0.0 && a.h.abs().max(b.h.abs()) >= 0.5 * level
+        })
+        .collect();
+    let extrema = bounded(candidates, &samples)
+        .into_iter()
+        .map(|i| extremum(dh, h, samples[i], samples[i + 1]))
         .collect();
     (samples, extrema)
+}
+
+/// At most [`MAX_EXTREMA`] sign changes of h′ are refined: where there are more (an
+/// oscillation the grid no longer resolves, a lightly damped mode over a very long span),
+/// the half with the largest |h| at an end (for the peak) and the latest half (for the
+/// settling time), in time order.
+fn bounded(mut candidates: Vec<usize>, samples: &[Sample]) -> Vec<usize> {
+    if candidates.len() <= MAX_EXTREMA {
+        return candidates;
+    }
+    let size = |i: usize| samples[i].h.abs().max(samples[i + 1].h.abs());
+    let latest = candidates.split_off(candidates.len() - MAX_EXTREMA / 2);
+    candidates.sort_by(|&a, &b| size(b).total_cmp(&size(a)));
+    candidates.truncate(MAX_EXTREMA / 2);
+    candidates.extend(latest);
+    candidates.sort_unstable();
+    candidates
 }
 
 impl IdealShape {

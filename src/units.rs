@@ -414,7 +414,8 @@ pub fn percent(fraction: f64) -> String {
 /// Format a magnitude (budget, RMS) as a percentage without sign: 0.01 → "1 %".
 pub fn percent_unsigned(fraction: f64) -> String {
     let p = fraction.abs() * 100.0;
-    if p != 0.0 && p < 0.01 {
+    // Very small and very large shares in exponent form (a 36-digit percentage reads as noise).
+    if p != 0.0 && !(0.01..1e6).contains(&p) {
         return format!("{p:.3e} %");
     }
     let text = format!("{p:.4}");

@@ -238,8 +238,9 @@ fn record_warning(w: &Warning) -> Option<String> {
             budget,
             noise,
         } => format!(
-            "reaching the {} budget needs {needed} averages (noise {} per acquisition), more than the {max_averages} the capture allows",
+            "reaching the {} budget needs {} averages (noise {} per acquisition), more than the {max_averages} the capture allows",
             percent_unsigned(*budget),
+            count(*needed),
             percent_unsigned(*noise)
         ),
         Warning::SingleShotOnly => {
@@ -263,8 +264,9 @@ fn record_warning(w: &Warning) -> Option<String> {
             record,
             memory,
         } => format!(
-            "{points} points are needed to sample every {} over {}, more than the {} points of memory, and two records \
+            "{} points are needed to sample every {} over {}, more than the {} points of memory, and two records \
              cannot resolve every mode either: raise [capture] max_points, or shorten the run",
+            count(*points),
             eng(*interval, Dim::Time),
             eng(*record, Dim::Time),
             crate::units::eng_plain(*memory, 4)
@@ -687,5 +689,15 @@ pub fn signed3(v: f64) -> String {
         "0".into()
     } else {
         format!("{v:+.3}")
+    }
+}
+
+/// A count as printed: a count that saturated at the largest 64-bit integer is said to be
+/// beyond it rather than printed as if exact.
+fn count(n: u64) -> String {
+    if n == u64::MAX {
+        format!("more than {:.1e}", u64::MAX as f64)
+    } else {
+        n.to_string()
     }
 }
