@@ -700,19 +700,10 @@ pub(crate) fn label(
     place(chart, meta, spots, text, colour, true)
 }
 
-/// Write a label at the first free one of `spots` only; draws nothing and returns false when
-/// none is free.
-pub(crate) fn label_if_room(
-    chart: &mut Chart<'_, '_>,
-    meta: &mut Meta,
-    spots: &[Spot],
-    text: &str,
-    colour: RGBColor,
-) -> io::Result<bool> {
-    place(chart, meta, spots, text, colour, false)
-}
-
-fn place(
+/// Write a label at the first free one of `spots`. With `search`, rings around the spots and
+/// then the whole plot are tried too, and the label is drawn at the first spot if nothing is
+/// free (returning false); without, nothing is drawn when no spot is free.
+pub(crate) fn place(
     chart: &mut Chart<'_, '_>,
     meta: &mut Meta,
     spots: &[Spot],

@@ -4,8 +4,8 @@
 
 use super::axis::Axis;
 use super::canvas::{
-    Area, Chart, INK, Key, Meta, PanelSpec, RULE, Spot, Swatch, block, label_if_room, legend,
-    panel, pe, render, segment, title_height, title_strip, unit_tick,
+    Area, Chart, INK, Key, Meta, PanelSpec, RULE, Spot, Swatch, block, legend, panel, pe, place,
+    render, segment, title_height, title_strip, unit_tick,
 };
 use crate::network::{Mode, Network};
 use crate::units::{Dim, eng};
@@ -242,7 +242,7 @@ fn label_mode(ch: &mut Chart<'_, '_>, meta: &mut Meta, m: &Mode, strip: bool) ->
             })
             .collect()
     };
-    label_if_room(ch, meta, &spots, &mode_text(m), INK)
+    place(ch, meta, &spots, &mode_text(m), INK, false)
 }
 
 /// The map's subtitle: its scales and whether every significant mode got a label.
