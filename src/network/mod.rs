@@ -476,6 +476,16 @@ fn from_polynomials(numerator: &[f64], denominator: &[f64]) -> Result<Network, N
     } else {
         Vec::new()
     };
+    if zeros
+        .iter()
+        .any(|z: &Complex64| !(z.re.is_finite() && z.im.is_finite()))
+    {
+        return Err(NetworkError::Invalid(
+            "the numerator's roots overflow f64: its coefficients are too far apart in scale \
+             (bring them nearer to each other, or give the zeros directly)"
+                .into(),
+        ));
+    }
     let mut net = Network {
         form: Form::Polynomial,
         modes: build_modes(&groups, residues),
