@@ -386,11 +386,15 @@ impl Ranged for Axis {
         if !frac.is_finite() {
             return if frac > 0.0 { limit.1 } else { limit.0 };
         }
-        if len > 0 {
-            limit.0 + (len as f64 * frac + 1e-3).floor() as i32
+        // Far outside the plot (clipped anyway) the offset is held to ±2²⁴ px, so the sum
+        // cannot overflow.
+        let far = f64::from(1 << 24);
+        let offset = if len > 0 {
+            (f64::from(len) * frac + 1e-3).floor()
         } else {
-            limit.0 + (len as f64 * frac - 1e-3).ceil() as i32
-        }
+            (f64::from(len) * frac - 1e-3).ceil()
+        };
+        limit.0 + offset.clamp(-far, far) as i32
     }
 
     fn key_points<Hint: KeyPointHint>(&self, hint: Hint) -> Vec<f64> {
