@@ -277,17 +277,32 @@ impl Study<'_> {
         };
         parallel_map(self.toleranced.len(), &|k| {
             let i = self.toleranced[k];
-            let fig = |f: f64| self.case_figures(&values_with(self.spec, &self.base, &[i], &[f]));
-            let (up, down) = match (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP)) {
-                (Some(u), Some(d)) => (u, d),
-                _ => (nominal, nominal),
+            let values = |f: f64| values_with(self.spec, &self.base, &[i], &[f]);
+            let case = |f: f64| self.case_figures(&values(f));
+            let full = |f: f64| {
+                let net = analyse_net(&netlist::with_values(self.spec, &values(f)));
+                net.ok().map(|n| figures(&n, self.threshold))
             };
-            Sensitivity {
-                part: self.spec.parts[i].name.clone(),
-                tolerance: self.tols[k],
-                tau_fast: rel(up.tau_fast, down.tau_fast, nominal.tau_fast),
-                tau_slow: rel(up.tau_slow, down.tau_slow, nominal.tau_slow),
-                h0: rel(up.h0, down.h0, nominal.h0),
+            let of = |fig: &dyn Fn(f64) -> Option<Figures>| {
+                let (up, down) = match (fig(1.0 + SENSITIVITY_STEP), fig(1.0 - SENSITIVITY_STEP)) {
+                    (Some(u), Some(d)) => (u, d),
+                    _ => (nominal, nominal),
+                };
+                Sensitivity {
+                    part: self.spec.parts[i].name.clone(),
+                    tolerance: self.tols[k],
+                    tau_fast: rel(up.tau_fast, down.tau_fast, nominal.tau_fast),
+                    tau_slow: rel(up.tau_slow, down.tau_slow, nominal.tau_slow),
+                    h0: rel(up.h0, down.h0, nominal.h0),
+                }
+            };
+            // A degenerate variant the case path cannot difference (a figure not finite) is
+            // differenced on the full path instead.
+            let s = of(&case);
+            if [s.tau_fast, s.tau_slow, s.h0].iter().all(|x| x.is_finite()) {
+                s
+            } else {
+                of(&full)
             }
         })
     }
