@@ -17,10 +17,8 @@ acceptance; the sampling error of a standard deviation from 200 captures is ~5 %
 The binary is $PULSEPLAN_BIN, or target/release/pulseplan under the repo root.
 """
 
-import argparse
 import json
 import math
-import os
 import re
 import subprocess
 import sys
@@ -34,9 +32,8 @@ HERE = Path(__file__).resolve().parent
 ROOT = HERE.parents[1]
 sys.path.insert(0, str(HERE))
 import gen_capture as G  # noqa: E402
-from check_recovery import Checker  # noqa: E402  (the same pass/fail printer)
+from check_recovery import BIN, start  # noqa: E402  (the same binary, arguments and printer)
 
-BIN = Path(os.environ.get("PULSEPLAN_BIN", ROOT / "target" / "release" / "pulseplan"))
 Z95 = 1.959963984540054
 
 
@@ -160,15 +157,10 @@ def check_case(ck, tmp, name, noise, count):
 
 
 def main():
-    ap = argparse.ArgumentParser()
-    ap.add_argument("--quiet", action="store_true")
-    ap.add_argument("--only", default="")
-    ap.add_argument("--count", type=int, default=200)
-    a = ap.parse_args()
-    if not BIN.exists():
-        print("missing binary %s (cargo build --release)" % BIN)
+    started = start()
+    if started is None:
         return 2
-    ck = Checker(a.quiet)
+    a, ck = started
     with tempfile.TemporaryDirectory() as d:
         for name, noise in CASES:
             if a.only in name:

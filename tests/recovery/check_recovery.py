@@ -389,7 +389,9 @@ def check_bad_files(ck, tmp):
     ck.check("too-short record warns (exit 1, code record-short)", rc == 1 and "record-short" in codes, "rc %d, %s" % (rc, codes))
 
 
-def main():
+def start():
+    """The scripts' common start: arguments (--quiet, --only, --count) and a Checker, or None
+    when the release binary is missing (said on stdout)."""
     ap = argparse.ArgumentParser()
     ap.add_argument("--quiet", action="store_true")
     ap.add_argument("--only", default="")
@@ -397,8 +399,15 @@ def main():
     a = ap.parse_args()
     if not BIN.exists():
         print("missing binary %s (cargo build --release)" % BIN)
+        return None
+    return a, Checker(a.quiet)
+
+
+def main():
+    started = start()
+    if started is None:
         return 2
-    ck = Checker(a.quiet)
+    a, ck = started
     err = G.self_check()
     # The generator itself: ramp superposition vs scipy.signal.lsim (first-order hold).
     ck.check("generator: exact response agrees with scipy.signal.lsim", err < 1e-9, "max relative %.2e" % err)
