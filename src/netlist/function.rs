@@ -123,6 +123,12 @@ pub(crate) fn drop_negligible(modes: Vec<CircuitMode>) -> Vec<CircuitMode> {
 }
 
 /// The check every analysis ends with: modes must be finite.
+/// A sum that cancels to rounding level of its terms' `scale` (within 1e-11 of it) is exactly
+/// zero: h(0⁺) of a relative degree ≥ 2, a feed-through the elimination only seemed to leave.
+pub(crate) fn unless_rounding(v: f64, scale: f64) -> f64 {
+    if v.abs() <= 1e-11 * scale { 0.0 } else { v }
+}
+
 pub(crate) fn all_finite(modes: &[CircuitMode]) -> bool {
     modes
         .iter()

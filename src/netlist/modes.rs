@@ -11,7 +11,9 @@ use nalgebra::DMatrix;
 use num_complex::Complex64;
 
 use super::dense::to_faer;
-use super::function::{CircuitFunction, CircuitMode, all_finite, drop_negligible, sort_modes};
+use super::function::{
+    CircuitFunction, CircuitMode, all_finite, drop_negligible, sort_modes, unless_rounding,
+};
 use super::spec::StateSpace;
 
 type C = Complex64;
@@ -30,11 +32,7 @@ pub(crate) fn function(
     // h(0⁺) = C·B; a sum that cancels to rounding level (relative degree ≥ 2) is exactly 0.
     let h0 = ss.c.dot(&ss.b);
     let h0_scale = ss.c.norm() * ss.b.norm();
-    let h0_ivt = if h0.abs() <= 1e-11 * h0_scale {
-        0.0
-    } else {
-        h0
-    };
+    let h0_ivt = unless_rounding(h0, h0_scale);
     let mut modes = if n == 0 {
         Vec::new()
     } else {

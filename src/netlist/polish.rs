@@ -116,9 +116,5 @@ pub(crate) fn polish(d: &Descriptor, net: &mut CircuitFunction) {
     } else {
         direct.re
     };
-    net.h0_ivt = if h0.re.abs() <= 1e-11 * scale {
-        0.0
-    } else {
-        h0.re
-    };
+    net.h0_ivt = super::function::unless_rounding(h0.re, scale);
 }

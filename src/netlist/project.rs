@@ -167,13 +167,8 @@ impl Projection {
             let x = lu22.solve(&a21)?;
             let y = lu22.solve(&bt.rows(r, m).into_owned())?;
             let c2 = ct.rows(r, m).into_owned();
-            let d = -c2.dot(&y);
             // A feed-through that cancels to rounding is none (as in the full reduction).
-            let d = if d.abs() <= 1e-11 * c2.norm() * y.norm() {
-                0.0
-            } else {
-                d
-            };
+            let d = super::function::unless_rounding(-c2.dot(&y), c2.norm() * y.norm());
             (
                 &a11 - &a12 * &x,
                 &b1 - &a12 * &y,

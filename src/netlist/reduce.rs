@@ -484,9 +484,7 @@ fn index_one(s: Semi) -> Result<Reduced, ReduceError> {
         b.column_mut(j).fill(0.0);
     }
     for (dj, sj) in d.iter_mut().zip(&dabs) {
-        if dj.abs() <= 1e-11 * sj {
-            *dj = 0.0;
-        }
+        *dj = super::function::unless_rounding(*dj, *sj);
     }
     let mut b0 = b.column(0).into_owned();
     let mut a = a;

@@ -491,11 +491,7 @@ fn finish(
         improper: Vec::new(),
         zeros: Vec::new(),
         zero_scale: s_norm,
-        h0_ivt: if h0.abs() <= 1e-11 * h0_scale {
-            0.0
-        } else {
-            h0
-        },
+        h0_ivt: super::function::unless_rounding(h0, h0_scale),
     })
 }
 
