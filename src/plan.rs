@@ -595,8 +595,10 @@ impl Serialize for Budget {
 const MAX_SEARCH_STEPS: usize = 4000;
 
 /// Search for the widest pulse whose metric stays within the budget, with all narrower widths
-/// also within it (the first crossing, scanning up in steps of √2, then bisection on log
-/// width), never wider than the cap ([`width_cap`]).
+/// also within it (the first crossing, scanning up in steps of √2 or longer far below the
+/// budget, [`scan_step`]), never wider than the cap
+/// ([`width_cap`]); the crossing is then closed in on with a bracketed regula falsi
+/// ([`close_in`]).
 pub fn widest_within(
     est: &Estimator,
     prep: &Prepared,
@@ -613,66 +615,132 @@ pub fn widest_within(
     let cap = width_cap(prep, settings);
     let ceiling = cap.width(prep.tau_plan);
     let start = (prep.tau_plan / settings.width_ratio).min(ceiling);
-    let (mut lo, mut hi);
-    if f(start) <= budget {
-        lo = start;
-        hi = ceiling;
-        // √2 steps: 4 000 of them span 600 decades, more than any finite pair of widths.
+    let f_start = f(start);
+    let (lo, hi);
+    if f_start <= budget {
+        let (mut w, mut fw) = (start, f_start);
+        let mut bracket = None;
+        // Steps of at least √2 (4 000 of them span 600 decades, more than any finite pair of
+        // widths); longer where the metric is far below the budget (`scan_step`).
         for _ in 0..MAX_SEARCH_STEPS {
-            let next = lo * step;
+            let next = w * scan_step(fw, budget);
             if next > ceiling || !next.is_finite() {
-                if f(ceiling) <= budget {
+                let f_ceiling = f(ceiling);
+                if f_ceiling <= budget {
                     return Target::Capped {
                         width: ceiling,
-                        value: f(ceiling),
+                        value: f_ceiling,
                         cap,
                     };
                 }
-                hi = ceiling;
+                bracket = Some((ceiling, f_ceiling));
                 break;
             }
-            if f(next) > budget {
-                hi = next;
+            let f_next = f(next);
+            if f_next > budget {
+                bracket = Some((next, f_next));
                 break;
             }
-            lo = next;
+            (w, fw) = (next, f_next);
         }
+        lo = (w, fw);
+        hi = bracket.unwrap_or((ceiling, f64::INFINITY));
     } else {
-        hi = start;
-        lo = 0.0;
+        let (mut w, mut fw) = (start, f_start);
+        let mut inside = None;
         for _ in 0..MAX_SEARCH_STEPS {
-            let next = hi / step;
+            let next = w / step;
             if next < floor || next == 0.0 {
                 break;
             }
-            if f(next) <= budget {
-                lo = next;
+            let f_next = f(next);
+            if f_next <= budget {
+                inside = Some((next, f_next));
                 break;
             }
-            hi = next;
+            (w, fw) = (next, f_next);
         }
-        if lo == 0.0 {
+        let Some(found) = inside else {
             return Target::Unreachable {
-                width: hi,
-                value: f(hi),
+                width: w,
+                value: fw,
             };
-        }
+        };
+        lo = found;
+        hi = (w, fw);
     }
-    // 10⁻⁵ of the width: finer than any generator sets a width.
-    let mut halvings = 0;
-    while hi / lo > 1.0 + 1e-5 && lo > 0.0 && halvings < MAX_SEARCH_STEPS {
-        halvings += 1;
-        let mid = (lo * hi).sqrt();
-        if f(mid) <= budget {
-            lo = mid;
+    let (width, value) = close_in(&f, budget, lo, hi);
+    Target::Met { width, value }
+}
+
+/// The upward scan's next step, a width factor: √2, or longer while the metric is far below
+/// the budget: the factor k with k³·metric = budget/2, at most 16, so that a metric growing
+/// as fast as the cube of the width (the window and aligned errors grow as its square, the
+/// t = 0⁺ reading as the width itself) is still within the budget after the step; common
+/// practice, no source.
+fn scan_step(metric: f64, budget: f64) -> f64 {
+    let k = (0.5 * budget / metric).cbrt();
+    if k.is_finite() {
+        k.clamp(2f64.sqrt(), 16.0)
+    } else if metric == 0.0 {
+        16.0
+    } else {
+        2f64.sqrt()
+    }
+}
+
+/// Relative width the search closes in to: 10⁻⁵ of the width, finer than any generator sets
+/// a width.
+const WIDTH_RESOLUTION: f64 = 1e-5;
+
+/// Close in on a crossing of the budget between `lo` (within it) and `hi` (beyond it), each a
+/// width with its metric: regula falsi on log metric against log width, with the Illinois
+/// halving of a retained end (Dowell & Jarratt 1971), each trial kept a tenth of the
+/// resolution inside the bracket so that the bracket itself closes, and a bisection whenever
+/// the bracket has not halved in three trials. Returns the wider width within the budget and
+/// its metric, within [`WIDTH_RESOLUTION`] of the crossing.
+fn close_in(f: &dyn Fn(f64) -> f64, budget: f64, lo: (f64, f64), hi: (f64, f64)) -> (f64, f64) {
+    let g = |v: f64| (v / budget).ln();
+    let (mut w_lo, mut v_lo) = lo;
+    let (mut x_lo, mut x_hi) = (lo.0.ln(), hi.0.ln());
+    let (mut g_lo, mut g_hi) = (g(lo.1), g(hi.1));
+    let tol = WIDTH_RESOLUTION.ln_1p();
+    let margin = 0.1 * tol;
+    let (mut side, mut last_width, mut trials) = (0i8, x_hi - x_lo, 0);
+    for _ in 0..MAX_SEARCH_STEPS {
+        let span = x_hi - x_lo;
+        if span <= tol || !span.is_finite() {
+            break;
+        }
+        trials += 1;
+        let secant = x_lo - g_lo * span / (g_hi - g_lo);
+        let stalled = trials % 3 == 0 && span > 0.5 * last_width;
+        let x = if stalled || !secant.is_finite() || !g_lo.is_finite() || !g_hi.is_finite() {
+            last_width = span;
+            0.5 * (x_lo + x_hi)
         } else {
-            hi = mid;
+            if trials % 3 == 0 {
+                last_width = span;
+            }
+            secant.clamp(x_lo + margin, x_hi - margin)
+        };
+        let w = x.exp();
+        let v = f(w);
+        if v <= budget {
+            (x_lo, w_lo, v_lo, g_lo) = (x, w, v, g(v));
+            if side == -1 {
+                g_hi *= 0.5;
+            }
+            side = -1;
+        } else {
+            (x_hi, g_hi) = (x, g(v));
+            if side == 1 {
+                g_lo *= 0.5;
+            }
+            side = 1;
         }
     }
-    Target::Met {
-        width: lo,
-        value: f(lo),
-    }
+    (w_lo, v_lo)
 }
 
 /// How tolerances changed the plan.
